@@ -1,0 +1,1 @@
+"""The HTTP layer: strict body reading, schemas, problem details, routes, OpenAPI."""

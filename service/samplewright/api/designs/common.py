@@ -1,0 +1,49 @@
+"""Bounds and pieces shared by the design adapters."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any
+
+from marshmallow import ValidationError
+
+from ..fields import Bounded, BoundedList, StrictFloat
+
+#: Most groups a one-way layout may have.
+MAX_GROUPS = 100
+#: Largest absolute mean or difference accepted, in data units.
+MEAN_BOUND = 1e12
+#: Largest SD accepted, in data units.
+SD_BOUND = 1e12
+#: Largest ratio between the biggest and the smallest allocation entry.
+MAX_ALLOCATION_SPREAD = 1000.0
+
+
+@dataclass(frozen=True)
+class Layout:
+    """A design without an effect: what detectable-effect needs."""
+
+    design: Any
+    sd: float | None
+
+
+def _spread_ok(ratios: list[float]) -> None:
+    if max(ratios) / min(ratios) > MAX_ALLOCATION_SPREAD:
+        raise ValidationError(
+            f"largest ratio may be at most {MAX_ALLOCATION_SPREAD:g} times the smallest "
+            f"(got {max(ratios) / min(ratios):.6g})"
+        )
+
+
+def allocation_field(min_items: int = 2, max_items: int = MAX_GROUPS) -> BoundedList:
+    """Positive allocation ratios, one per group (default: equal)."""
+    return BoundedList(
+        StrictFloat(validate=Bounded(min=0, max=1e6, min_inclusive=False)),
+        min_items=min_items,
+        max_items=max_items,
+        validate=[_spread_ok],
+        metadata={
+            "description": "Relative group sizes, one positive ratio per group (default equal). "
+            f"Sizes are n_i = ceil(m·r_i/min r); the largest ratio is at most {MAX_ALLOCATION_SPREAD:g}× the smallest."
+        },
+    )

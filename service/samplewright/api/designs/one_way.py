@@ -1,0 +1,171 @@
+"""HTTP adapter for the one-way fixed-effects ANOVA: its schema and its reports."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from marshmallow import Schema, ValidationError, validates_schema
+
+from ...core.designs.base import is_equal, normalised_allocation
+from ...core.designs.one_way import OneWayAnova, eta_squared_from_f, f_from_eta_squared
+from ..fields import Bounded, BoundedList, StrictFloat, StrictInteger, choice
+from .common import MAX_GROUPS, MEAN_BOUND, SD_BOUND, Layout, allocation_field
+
+EFFECT_FIELDS = ("group_means", "cohens_f", "eta_squared", "min_range")
+
+
+class OneWayAnovaDesignSchema(Schema):
+    """One-way fixed-effects ANOVA: k group means compared by the omnibus F test."""
+
+    type = choice(["one_way_anova"], required=True, metadata={"description": "Design family."})
+    group_means = BoundedList(
+        StrictFloat(validate=Bounded(min=-MEAN_BOUND, max=MEAN_BOUND)),
+        min_items=2, max_items=MAX_GROUPS,
+        metadata={"description": "Expected mean of each group, in the units of the data (with `sd`)."},
+    )
+    sd = StrictFloat(
+        validate=Bounded(min=0, max=SD_BOUND, min_inclusive=False),
+        metadata={"description": "Common within-group (error) standard deviation σ, in the units of the data."},
+    )
+    cohens_f = StrictFloat(
+        validate=Bounded(min=0, max=10),
+        metadata={"description": "Cohen's f = σ_m/σ, the SD of the group means over the error SD (with `groups`)."},
+    )
+    eta_squared = StrictFloat(
+        validate=Bounded(min=0, max=0.99),
+        metadata={"description": "Proportion of total variance explained by the groups, η² = f²/(1+f²) (with `groups`)."},
+    )
+    min_range = StrictFloat(
+        validate=Bounded(min=0, max=MEAN_BOUND),
+        metadata={"description": "Smallest difference between the extreme means worth detecting, in data units "
+                                 "(with `sd` and `groups`); least-favourable configuration, equal allocation only."},
+    )
+    groups = StrictInteger(
+        validate=Bounded(min=2, max=MAX_GROUPS),
+        metadata={"description": "Number of groups k (implied by `group_means` or `group_sizes` when those are given)."},
+    )
+    allocation = allocation_field()
+
+    @validates_schema
+    def _one_effect(self, data, **kwargs):
+        given = [name for name in EFFECT_FIELDS if name in data]
+        if len(given) > 1:
+            raise ValidationError(
+                f"give exactly one of {', '.join(EFFECT_FIELDS)} (got {', '.join(given)})", "_effect"
+            )
+        if "group_means" in data and "groups" in data and data["groups"] != len(data["group_means"]):
+            raise ValidationError(
+                f"must equal the number of group_means ({len(data['group_means'])}) (got {data['groups']})",
+                "groups",
+            )
+        if any(name in data for name in ("group_means", "min_range")) and "sd" not in data:
+            raise ValidationError("is required with group_means and with min_range", "sd")
+        groups = len(data["group_means"]) if "group_means" in data else data.get("groups")
+        if groups is not None and "allocation" in data and len(data["allocation"]) != groups:
+            raise ValidationError(
+                f"needs one ratio per group ({groups}) (got {len(data['allocation'])})", "allocation"
+            )
+
+
+class OneWayAnovaAdapter:
+    """Turns validated one-way fields into a core design and its effect reports."""
+
+    type = "one_way_anova"
+    schema = OneWayAnovaDesignSchema
+    method_id = OneWayAnova.method_id
+    reference = OneWayAnova.reference
+    title = "One-way ANOVA (fixed effects), omnibus F test"
+    formula = (
+        "df1 = k − 1, df2 = N − k, λ = Σ n_i(μ_i − μ̄_w)²/σ² = N f²; "
+        "power = P(F'(df1, df2, λ) > F_crit(α))"
+    )
+    effect_fields = EFFECT_FIELDS
+    assumptions = (
+        "Observations are independent, within and between groups.",
+        "Within each group the response is normally distributed.",
+        "Every group has the same error standard deviation σ.",
+        "Fixed effects: the groups compared are exactly the groups of interest.",
+        "The assumed effect is the true effect; power is only as good as that assumption.",
+    )
+
+    def groups_of(self, fields: dict, sizes_count: int | None) -> int:
+        """k from the design fields, or from the number of group sizes."""
+        if "group_means" in fields:
+            k = len(fields["group_means"])
+        elif "groups" in fields:
+            k = fields["groups"]
+        elif "allocation" in fields:
+            k = len(fields["allocation"])
+        elif sizes_count is not None:
+            k = sizes_count
+        else:
+            raise ValidationError("is required (or give group_means, allocation or group_sizes)", "design.groups")
+        if sizes_count is not None and sizes_count != k:
+            raise ValidationError(f"needs one size per group ({k}) (got {sizes_count})", "group_sizes")
+        return k
+
+    def build(self, fields: dict, sizes_count: int | None) -> OneWayAnova:
+        """The core design, for power and sample-size questions."""
+        given = [name for name in EFFECT_FIELDS if name in fields]
+        if not given:
+            raise ValidationError(f"give exactly one of {', '.join(EFFECT_FIELDS)}", "design._effect")
+        k = self.groups_of(fields, sizes_count)
+        allocation = fields.get("allocation")
+        if "group_means" in fields:
+            return OneWayAnova.from_means(fields["group_means"], fields["sd"], allocation)
+        if "cohens_f" in fields:
+            return OneWayAnova.from_f(fields["cohens_f"], k, allocation, sd=fields.get("sd"))
+        if "eta_squared" in fields:
+            return OneWayAnova.from_f(
+                f_from_eta_squared(fields["eta_squared"]), k, allocation, sd=fields.get("sd"),
+                source="eta_squared",
+            )
+        return OneWayAnova.from_min_range(fields["min_range"], fields["sd"], k, allocation)
+
+    def layout(self, fields: dict, sizes_count: int | None) -> Layout:
+        """Groups, allocation and SD, for the detectable-effect question."""
+        given = [name for name in EFFECT_FIELDS if name in fields]
+        if given:
+            raise ValidationError(
+                "is what detectable-effect solves for; leave the effect out of the design", f"design.{given[0]}"
+            )
+        k = self.groups_of(fields, sizes_count)
+        ratios = normalised_allocation(fields.get("allocation"), k)
+        probe = OneWayAnova(groups=k, ratios=ratios, cohens_f=0.0)
+        return Layout(design=probe, sd=fields.get("sd"))
+
+    def effect_report(self, design: OneWayAnova, sizes: np.ndarray) -> dict:
+        """Cohen's f, η² and, with an SD, the SD of the means, at the sizes used."""
+        f = float(design.cohens_f_at(sizes.reshape(1, -1))[0])
+        report = {"cohens_f": f, "eta_squared": float(eta_squared_from_f(f))}
+        if design.sd is not None:
+            report["sd_of_means"] = f * design.sd
+        if design.means is not None:
+            report["range_of_means"] = float(np.ptp(design.means))
+        return report
+
+    def detectable_report(self, layout: Layout, sizes: np.ndarray, noncentrality: float) -> dict:
+        """The detectable effect in f, η² and, with an SD, in data units."""
+        n_total = float(sizes.sum())
+        f = math.sqrt(noncentrality / n_total)
+        report = {"cohens_f": f, "eta_squared": float(eta_squared_from_f(f))}
+        if layout.sd is not None:
+            report["sd_of_means"] = f * layout.sd
+            if is_equal(sizes / sizes.min()):
+                report["min_range"] = f * layout.sd * math.sqrt(2 * len(sizes))
+        return report
+
+    def warnings(self, design, sizes: np.ndarray) -> list[str]:
+        out = []
+        if sizes.min() < 5:
+            out.append(
+                f"The smallest group has {int(sizes.min())} units: with so few, the F test's "
+                "robustness to non-normal errors and unequal variances is weak."
+            )
+        if not is_equal(sizes / sizes.min()) and design is not None and design.means is None:
+            out.append(
+                "Cohen's f was given directly with unequal group sizes: it is taken to describe the "
+                "design at these proportions (λ = N f²)."
+            )
+        return out
