@@ -16,7 +16,6 @@ from dataclasses import dataclass
 import numpy as np
 
 from .designs.base import sizes_from_smallest
-from .distributions import f_critical_value, f_test_power
 from .errors import InvalidParameter, NoSolution
 from .solve import MAX_NONCENTRALITY, noncentrality_for_power, smallest_integer_reaching
 
@@ -65,22 +64,15 @@ class DetectableResult:
     check: PowerResult
 
 
-def _power_rows(design, sizes: np.ndarray, alpha: float):
-    test = design.test_at(sizes)
-    crit = f_critical_value(alpha, test.df1, test.df2)
-    power = f_test_power(alpha, test.df1, test.df2, test.noncentrality, critical=crit)
-    return test, np.atleast_1d(crit), np.atleast_1d(power)
-
-
 def _result(design, sizes_row: np.ndarray, alpha: float) -> PowerResult:
-    test, crit, power = _power_rows(design, sizes_row.reshape(1, -1), alpha)
+    ev = design.evaluate(sizes_row.reshape(1, -1), alpha)
     return PowerResult(
         alpha=float(alpha),
-        power=float(power[0]),
-        df_numerator=float(test.df1[0]),
-        df_denominator=float(test.df2[0]),
-        noncentrality=float(test.noncentrality[0]),
-        critical_value=float(crit[0]),
+        power=float(ev.power[0]),
+        df_numerator=float(ev.df1[0]),
+        df_denominator=float(ev.df2[0]),
+        noncentrality=float(ev.noncentrality[0]),
+        critical_value=float(ev.critical_value[0]),
         group_sizes=tuple(int(v) for v in sizes_row),
     )
 
@@ -92,7 +84,7 @@ def check_sizes(design, sizes) -> np.ndarray:
         raise InvalidParameter("group_sizes", list(sizes), f"needs one size per group ({design.groups})")
     if np.any(arr < 1) or np.any(arr > SIZE_CAP):
         raise InvalidParameter("group_sizes", list(sizes), f"every size must be between 1 and {SIZE_CAP}")
-    if design.test_at(arr.reshape(1, -1)).df2[0] < 1:
+    if design.evaluate(arr.reshape(1, -1), 0.05).df2[0] < 1:
         raise InvalidParameter(
             "group_sizes", list(sizes),
             "leaves no error degrees of freedom (total must exceed the number of groups)",
@@ -137,7 +129,7 @@ def sample_size(design, *, alpha: float, target_power: float, dropout_rate: floa
     if m_cap < lower:
         raise NoSolution("design.allocation", list(design.ratios), "the allocation leaves no feasible size under the cap")
 
-    at_cap = design.test_at(sizes_from_smallest([m_cap], design.ratios))
+    at_cap = design.evaluate(sizes_from_smallest([m_cap], design.ratios), alpha)
     if not at_cap.noncentrality[0] > 0:
         raise NoSolution(
             "design", "zero effect",
@@ -145,7 +137,7 @@ def sample_size(design, *, alpha: float, target_power: float, dropout_rate: floa
         )
 
     def power_at(m: np.ndarray) -> np.ndarray:
-        return _power_rows(design, sizes_from_smallest(m, design.ratios), alpha)[2]
+        return design.evaluate(sizes_from_smallest(m, design.ratios), alpha).power
 
     m, found = smallest_integer_reaching(
         power_at, target=np.array([target_power]), lower=np.array([lower]), cap=m_cap
@@ -176,22 +168,24 @@ def sample_size(design, *, alpha: float, target_power: float, dropout_rate: floa
     )
 
 
-def detectable_noncentrality(*, df1: float, df2: float, alpha: float, target_power: float) -> float:
-    """The λ at which the level-α F test with (df1, df2) has power ``target_power``.
+def detectable_effect(design, *, sizes, alpha: float, target_power: float) -> DetectableResult:
+    """Smallest noncentrality detectable at ``target_power`` with ``sizes``.
 
-    Solved by bracketing and regula falsi on the exact power (``solve.py``), relative
-    accuracy 1e-13 in λ; never by scipy's inverse-noncentrality helper, which clamps
-    silently at 10,000 and errs by percents.
+    Solved by bracketing and regula falsi on the design's exact power
+    (``design.power_at_noncentrality``; ``solve.py``), relative accuracy 1e-13; never by
+    scipy's inverse-noncentrality helper, which clamps silently at 10,000 and errs by
+    percents.
     """
     if not target_power > alpha:
         raise InvalidParameter("target_power", target_power, f"must exceed alpha ({alpha})")
-    crit = f_critical_value(alpha, df1, df2)
+    sizes = np.asarray(sizes, dtype=np.int64)
+    probe = design.evaluate(sizes.reshape(1, -1), alpha)
 
     def power_of(lam: np.ndarray, _mask: np.ndarray) -> np.ndarray:
-        return np.atleast_1d(f_test_power(alpha, df1, df2, lam, critical=crit))
+        return design.power_at_noncentrality(lam, sizes, alpha)
 
     lam, found = noncentrality_for_power(
-        power_of, target=np.array([target_power]), start=np.array([max(1.0, df1)])
+        power_of, target=np.array([target_power]), start=np.array([max(1.0, float(probe.df1[0]))])
     )
     if not found[0]:
         raise NoSolution(
@@ -199,25 +193,14 @@ def detectable_noncentrality(*, df1: float, df2: float, alpha: float, target_pow
             f"the detectable noncentrality exceeds {MAX_NONCENTRALITY:g}; "
             "add error degrees of freedom or lower the target",
         )
-    return float(lam[0])
-
-
-def detectable_effect(design, *, sizes, alpha: float, target_power: float) -> DetectableResult:
-    """Smallest noncentrality detectable at ``target_power`` with ``sizes``."""
-    sizes = np.asarray(sizes, dtype=np.int64)
-    test = design.test_at(sizes.reshape(1, -1))
-    lam = detectable_noncentrality(
-        df1=float(test.df1[0]), df2=float(test.df2[0]), alpha=alpha, target_power=target_power
-    )
-    crit = float(f_critical_value(alpha, test.df1[0], test.df2[0]))
-    achieved = float(f_test_power(alpha, test.df1[0], test.df2[0], lam, critical=crit))
+    lam = float(lam[0])
     check = PowerResult(
         alpha=float(alpha),
-        power=achieved,
-        df_numerator=float(test.df1[0]),
-        df_denominator=float(test.df2[0]),
+        power=float(power_of(np.array([lam]), np.array([True]))[0]),
+        df_numerator=float(probe.df1[0]),
+        df_denominator=float(probe.df2[0]),
         noncentrality=lam,
-        critical_value=crit,
+        critical_value=float(probe.critical_value[0]),
         group_sizes=tuple(int(v) for v in sizes),
     )
     return DetectableResult(target_power=float(target_power), noncentrality=lam, check=check)

@@ -24,7 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InvalidParameter
-from .base import FTest, is_equal, normalised_allocation, sizes_from_smallest
+from .base import FTest, FTestDesign, is_equal, normalised_allocation
 
 METHOD_ID = "one_way_anova.noncentral_f"
 REFERENCE = (
@@ -50,7 +50,7 @@ def f_from_min_range(min_range: float, sd: float, groups: int) -> float:
 
 
 @dataclass(frozen=True)
-class OneWayAnova:
+class OneWayAnova(FTestDesign):
     """A one-way layout whose effect is given either by means and SD or by Cohen's f.
 
     Exactly one of ``means`` (with ``sd``) and ``cohens_f`` is set; the constructors
@@ -102,10 +102,6 @@ class OneWayAnova:
         return cls(groups=groups, ratios=ratios, cohens_f=f, sd=float(sd), effect_source="min_range")
 
     # -- what the engine needs -------------------------------------------------------
-
-    def smallest_unit(self) -> int:
-        """The smallest size of the smallest group that leaves error df N − k ≥ 1."""
-        return 1 if sizes_from_smallest([1], self.ratios).sum() > self.groups else 2
 
     def test_at(self, sizes: np.ndarray) -> FTest:
         """df and λ for each row of ``sizes`` (shape (designs, k))."""

@@ -1,0 +1,36 @@
+# One command per job: `make serve` installs and starts the service, `make test` installs and
+# runs everything CI runs. Both create or update the virtual environment in .venv first.
+PYTHON ?= python3
+VENV   ?= .venv
+BIN    := $(VENV)/bin
+HOST   ?= 127.0.0.1
+PORT   ?= 8000
+STAMP  := $(VENV)/.stamp-install
+
+.PHONY: install serve test lint spec spec-check clean
+
+$(STAMP): pyproject.toml
+	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+	$(BIN)/python -m pip install --quiet -e '.[test]'
+	touch $(STAMP)
+
+install: $(STAMP)
+
+serve: $(STAMP)
+	HOST=$(HOST) PORT=$(PORT) $(BIN)/gunicorn --config deploy/gunicorn.conf.py samplewright.wsgi:app
+
+lint: $(STAMP)
+	$(BIN)/ruff check service tests examples
+
+spec: $(STAMP)
+	$(BIN)/samplewright spec --write
+
+spec-check: $(STAMP)
+	$(BIN)/samplewright spec --check
+
+test: $(STAMP) lint spec-check
+	$(BIN)/python -m pytest
+
+clean:
+	rm -rf $(VENV) build dist service/*.egg-info .pytest_cache .hypothesis .ruff_cache
