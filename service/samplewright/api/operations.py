@@ -46,6 +46,16 @@ def _common(adapter, result: planning.PowerResult, warnings: list[str]) -> dict:
     }
 
 
+def _extras(adapter, design, sizes: np.ndarray, alpha: float, out: dict) -> dict:
+    """Design-specific extras (an adapter may define ``extras``) under ``details``."""
+    hook = getattr(adapter, "extras", None)
+    if hook is not None:
+        details = hook(design, sizes, alpha)
+        if details:
+            out["details"] = details
+    return out
+
+
 def _sizes(req: dict, design) -> np.ndarray:
     if "group_sizes" in req:
         return planning.check_sizes(design, req["group_sizes"])
@@ -68,7 +78,7 @@ def power(body: dict) -> dict:
     result = planning.power(design, sizes=sizes, alpha=req["alpha"])
     out = {"power": result.power, **_common(adapter, result, adapter.warnings(design, sizes))}
     out["effect"] = adapter.effect_report(design, sizes)
-    return out
+    return _extras(adapter, design, sizes, req["alpha"], out)
 
 
 def sample_size(body: dict) -> dict:
@@ -108,7 +118,7 @@ def sample_size(body: dict) -> dict:
             "group_sizes": list(found.enrolment_sizes),
             "n_total": int(sum(found.enrolment_sizes)),
         }
-    return out
+    return _extras(adapter, design, sizes, req["alpha"], out)
 
 
 def detectable_effect(body: dict) -> dict:

@@ -7,7 +7,7 @@ against it): the routes build plain dicts, which is cheaper than a marshmallow d
 
 from __future__ import annotations
 
-from marshmallow import RAISE, Schema, ValidationError, fields, validates_schema
+from marshmallow import INCLUDE, RAISE, Schema, ValidationError, fields, validates_schema
 
 from ..core.errors import show
 from ..core.planning import SIZE_CAP
@@ -132,8 +132,13 @@ class MethodSchema(Schema):
 
 
 class EffectSchema(Schema):
-    cohens_f = fields.Float(required=True)
-    eta_squared = fields.Float(required=True)
+    """The effect in the forms that fit the design (more keys for other designs)."""
+
+    class Meta:
+        unknown = INCLUDE
+
+    cohens_f = fields.Float()
+    eta_squared = fields.Float()
     sd_of_means = fields.Float(metadata={"description": "σ_m = f·σ, in data units (when an SD is known)."})
     range_of_means = fields.Float(metadata={"description": "Largest minus smallest group mean (means given)."})
 
@@ -151,6 +156,9 @@ class _Common(Schema):
     assumptions = fields.List(fields.String(), required=True)
     warnings = fields.List(fields.String(), required=True)
     cautions = fields.List(fields.String(), required=True)
+    details = fields.Dict(
+        metadata={"description": "Design-specific extras (per-comparison powers, what-if tables, …)."}
+    )
 
 
 class PowerResponseSchema(_Common):
@@ -190,10 +198,15 @@ class SampleSizeResponseSchema(_Common):
 
 
 class DetectableEffectResponseSchema(_Common):
+    """The detectable effect in the design's natural units, plus the noncentrality."""
+
+    class Meta:
+        unknown = INCLUDE
+
     target_power = fields.Float(required=True)
     achieved_power = fields.Float(required=True, metadata={"description": "Power at the detectable effect (equals the target)."})
-    cohens_f = fields.Float(required=True)
-    eta_squared = fields.Float(required=True)
+    cohens_f = fields.Float()
+    eta_squared = fields.Float()
     sd_of_means = fields.Float(metadata={"description": "Detectable SD of the means, in data units (design.sd given)."})
     min_range = fields.Float(
         metadata={"description": "Detectable range of the means under the least-favourable configuration "
