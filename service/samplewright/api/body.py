@@ -11,14 +11,20 @@ duplicate keys and absurdly long integer literals.
 from __future__ import annotations
 
 import json
+import sys
 from typing import Any
 
 from flask import request
 
+from .fields import TinyNumber
 from .problems import Problem
 
 #: An integer literal longer than this cannot be a valid size or count.
 MAX_INTEGER_DIGITS = 30
+#: Deepest nesting of arrays and objects accepted (a request needs three or four levels).
+#: Checked after parsing so that no later step (validation, ``repr`` in an error message)
+#: meets a structure deep enough to exhaust the interpreter's recursion limit.
+MAX_NESTING = 32
 
 
 def _reject_constant(name: str):
@@ -30,6 +36,25 @@ def _bounded_int(text: str) -> int:
     if digits > MAX_INTEGER_DIGITS:
         raise ValueError(f"an integer literal of {digits} digits is out of range")
     return int(text)
+
+
+def _float(text: str) -> float | TinyNumber:
+    """A float literal; a nonzero one that a double cannot hold (1e-400) is kept as text."""
+    value = float(text)
+    if abs(value) < sys.float_info.min and any(c in "123456789" for c in text.lower().split("e")[0]):
+        return TinyNumber(text)
+    return value
+
+
+def _check_nesting(data: Any) -> None:
+    """Refuse arrays and objects nested more than MAX_NESTING deep (iteratively)."""
+    stack = [(data, 1)]
+    while stack:
+        node, depth = stack.pop()
+        children = node.values() if isinstance(node, dict) else node
+        if depth > MAX_NESTING:
+            raise ValueError(f"nesting is too deep (at most {MAX_NESTING} levels of arrays and objects)")
+        stack.extend((child, depth + 1) for child in children if isinstance(child, dict | list))
 
 
 def _no_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
@@ -44,14 +69,18 @@ def _no_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
 def parse_json_text(text: str) -> Any:
     """Strict JSON parse; raises ValueError with a reason a client can act on."""
     try:
-        return json.loads(
+        data = json.loads(
             text,
             parse_constant=_reject_constant,
+            parse_float=_float,
             parse_int=_bounded_int,
             object_pairs_hook=_no_duplicates,
         )
     except RecursionError:
-        raise ValueError("nesting is too deep") from None
+        raise ValueError(f"nesting is too deep (at most {MAX_NESTING} levels of arrays and objects)") from None
+    if isinstance(data, dict | list):
+        _check_nesting(data)
+    return data
 
 
 def read_json_object(limit: int) -> dict[str, Any]:

@@ -9,8 +9,9 @@ accept an integral float such as 20.0 as the integer 20, as JSON Schema does.
 from __future__ import annotations
 
 import math
+import sys
 
-from marshmallow import ValidationError, fields, validate
+from marshmallow import RAISE, Schema, ValidationError, fields, validate
 
 from ..core.errors import show
 
@@ -40,6 +41,19 @@ class Bounded(validate.Range):
         return _describe(self.min, self.max, self.min_inclusive, self.max_inclusive)
 
 
+class TinyNumber:
+    """A nonzero JSON number too small for a double (``1e-400``): read as 0 it would change
+    silently, so the body reader keeps its text and the number fields refuse it."""
+
+    __slots__ = ("text",)
+
+    def __init__(self, text: str) -> None:
+        self.text = text
+
+    def __repr__(self) -> str:
+        return self.text
+
+
 class StrictFloat(fields.Float):
     """A finite JSON number; integers are accepted and converted to float."""
 
@@ -47,6 +61,11 @@ class StrictFloat(fields.Float):
         super().__init__(allow_nan=False, **kwargs)
 
     def _deserialize(self, value, attr, data, **kwargs):
+        if isinstance(value, TinyNumber):
+            raise ValidationError(
+                f"is too small to represent: must be 0 or of magnitude at least {sys.float_info.min:.6g} "
+                f"(got {show(value)})"
+            )
         if isinstance(value, bool) or not isinstance(value, int | float):
             raise ValidationError(f"must be a JSON number (got {show(value)})")
         try:
@@ -110,3 +129,15 @@ def choice(options: list[str], **kwargs) -> StrictString:
         validate=validate.OneOf(options, error="must be one of {choices} (got {input!r})"),
         **kwargs,
     )
+
+
+class StrictSchema(Schema):
+    """A schema that refuses unknown fields with a message listing the allowed ones."""
+
+    class Meta:
+        unknown = RAISE
+
+    def __init__(self, *args, **kwargs):
+        super().__init__(*args, **kwargs)
+        allowed = ", ".join(sorted(self.load_fields))
+        self.error_messages = {**self.error_messages, "unknown": f"is not a field here; allowed: {allowed}"}

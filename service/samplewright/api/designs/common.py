@@ -28,7 +28,8 @@ class Layout:
 
 
 def _spread_ok(ratios: list[float]) -> None:
-    if max(ratios) / min(ratios) > MAX_ALLOCATION_SPREAD:
+    # Relative slack: [1e-6, 1e-3] has the ratio 1000.0000000000001 in floating point.
+    if max(ratios) / min(ratios) > MAX_ALLOCATION_SPREAD * (1 + 1e-12):
         raise ValidationError(
             f"largest ratio may be at most {MAX_ALLOCATION_SPREAD:g} times the smallest "
             f"(got {max(ratios) / min(ratios):.6g})"
