@@ -1,4 +1,4 @@
-"""The three planning questions, answered once for every design.
+"""The three planning questions, answered once for every design, for one row or many.
 
 * power: the probability that the level-α test rejects, for given group sizes;
 * sample size: the smallest integer design whose power reaches a target;
@@ -6,7 +6,16 @@
   given sizes at the target power.
 
 A design supplies ``groups``, ``ratios`` (allocation divided by its minimum),
-``smallest_unit()`` and ``test_at(sizes) -> FTest``; see ``designs/base.py``.
+``smallest_unit()`` and ``evaluate`` / ``power_at_noncentrality`` (from ``test_at`` for
+F tests); see ``designs/base.py``.
+
+Every question has a row form (``power_rows``, ``sample_size_rows``, ``detectable_rows``,
+``sizes_for_rows``, ``check_sizes_rows``) over a ``vectorised.Rows`` of designs with one
+α, target and set of sizes per row, answered in lockstep with array calls; errors are per
+row (a list with None where the row has an answer). The scalar functions (``power``,
+``sample_size``, ``detectable_effect``, ``sizes_for``, ``check_sizes``) are the row forms
+with one row, so a question asked alone and the same question among many are computed by
+the same code.
 """
 
 from __future__ import annotations
@@ -15,9 +24,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .designs.base import sizes_from_smallest
 from .errors import InvalidParameter, NoSolution
 from .solve import MAX_NONCENTRALITY, noncentrality_for_power, smallest_integer_reaching
+from .vectorised import Rows, sizes_from_rows
 
 #: No group is planned larger than this; a sample-size answer beyond it is refused.
 SIZE_CAP = 10_000_000
@@ -64,143 +73,354 @@ class DetectableResult:
     check: PowerResult
 
 
-def _result(design, sizes_row: np.ndarray, alpha: float) -> PowerResult:
-    ev = design.evaluate(sizes_row.reshape(1, -1), alpha)
-    return PowerResult(
-        alpha=float(alpha),
-        power=float(ev.power[0]),
-        df_numerator=float(ev.df1[0]),
-        df_denominator=float(ev.df2[0]),
-        noncentrality=float(ev.noncentrality[0]),
-        critical_value=float(ev.critical_value[0]),
-        group_sizes=tuple(int(v) for v in sizes_row),
+# -- row results ---------------------------------------------------------------------------
+
+
+@dataclass(frozen=True)
+class PowerRows:
+    """Power and test parameters per row (entries of rows with an error are meaningless)."""
+
+    alpha: np.ndarray
+    power: np.ndarray
+    df_numerator: np.ndarray
+    df_denominator: np.ndarray
+    noncentrality: np.ndarray
+    critical_value: np.ndarray
+    sizes: np.ndarray  # (rows, k) integers
+
+    def result(self, i: int) -> PowerResult:
+        return PowerResult(
+            alpha=float(self.alpha[i]),
+            power=float(self.power[i]),
+            df_numerator=float(self.df_numerator[i]),
+            df_denominator=float(self.df_denominator[i]),
+            noncentrality=float(self.noncentrality[i]),
+            critical_value=float(self.critical_value[i]),
+            group_sizes=tuple(self.sizes[i].tolist()),
+        )
+
+
+@dataclass(frozen=True)
+class SampleSizeRows:
+    """Per row: the smallest design reaching the target, the step below, and enrolment."""
+
+    target_power: np.ndarray
+    answer: PowerRows
+    one_step_smaller: PowerRows
+    has_smaller: np.ndarray  # False where the answer is the smallest design with error df
+    smallest_group: np.ndarray
+    dropout_rate: np.ndarray
+    enrolment: np.ndarray  # (rows, k); meaningful where dropout_rate > 0
+
+    def result(self, i: int) -> SampleSizeResult:
+        return SampleSizeResult(
+            target_power=float(self.target_power[i]),
+            answer=self.answer.result(i),
+            one_step_smaller=self.one_step_smaller.result(i) if self.has_smaller[i] else None,
+            smallest_group=int(self.smallest_group[i]),
+            dropout_rate=float(self.dropout_rate[i]),
+            enrolment_sizes=tuple(self.enrolment[i].tolist()) if self.dropout_rate[i] > 0 else None,
+        )
+
+
+@dataclass(frozen=True)
+class DetectableRows:
+    """Per row: the detectable noncentrality and the power it gives."""
+
+    target_power: np.ndarray
+    noncentrality: np.ndarray
+    check: PowerRows
+
+    def result(self, i: int) -> DetectableResult:
+        return DetectableResult(
+            target_power=float(self.target_power[i]),
+            noncentrality=float(self.noncentrality[i]),
+            check=self.check.result(i),
+        )
+
+
+RowErrors = list  # list[InvalidParameter | NoSolution | None], one entry per row
+
+
+def _column(value, count: int, dtype=float) -> np.ndarray:
+    return np.broadcast_to(np.asarray(value, dtype=dtype), (count,)).copy()
+
+
+def _scatter(count: int, index: np.ndarray, values: np.ndarray, fill=0.0, dtype=float) -> np.ndarray:
+    out = np.full(count, fill, dtype=dtype)
+    out[index] = values
+    return out
+
+
+def _power_rows_at(rows: Rows, index: np.ndarray, sizes: np.ndarray, alpha: np.ndarray) -> PowerRows:
+    """PowerRows for all rows, evaluated at ``sizes`` (rows, k) for the rows in ``index``."""
+    count = rows.count
+    full_sizes = np.zeros((count, rows.groups), dtype=np.int64)
+    if index.size == 0:
+        zero = np.zeros(count)
+        return PowerRows(alpha, zero, zero, zero, zero, zero, full_sizes)
+    part = rows if index.size == count else rows.take(index)
+    ev = part.evaluate(sizes[index], alpha[index])
+    full_sizes[index] = sizes[index]
+    return PowerRows(
+        alpha=alpha,
+        power=_scatter(count, index, ev.power),
+        df_numerator=_scatter(count, index, ev.df1),
+        df_denominator=_scatter(count, index, ev.df2),
+        noncentrality=_scatter(count, index, ev.noncentrality),
+        critical_value=_scatter(count, index, ev.critical_value),
+        sizes=full_sizes,
     )
+
+
+# -- sizes -----------------------------------------------------------------------------------
+
+
+def check_sizes_rows(rows: Rows, sizes: list) -> tuple[np.ndarray, RowErrors]:
+    """Validate explicit group sizes (one list per row) against each row's design.
+
+    Per row: one size per group, every size in [1, SIZE_CAP], error df ≥ 1. Returns the
+    sizes as a (rows, k) integer array (rows with an error hold ones) and the errors.
+    """
+    count, k = rows.count, rows.groups
+    out = np.ones((count, k), dtype=np.int64)
+    errors: RowErrors = [None] * count
+    for i, given in enumerate(sizes):
+        arr = np.asarray(given, dtype=np.int64)
+        if arr.shape != (k,):
+            errors[i] = InvalidParameter("group_sizes", list(given), f"needs one size per group ({k})")
+        elif np.any(arr < 1) or np.any(arr > SIZE_CAP):
+            errors[i] = InvalidParameter("group_sizes", list(given), f"every size must be between 1 and {SIZE_CAP}")
+        else:
+            out[i] = arr
+    ok = np.array([e is None for e in errors])
+    index = np.flatnonzero(ok)
+    if index.size:
+        part = rows if index.size == count else rows.take(index)
+        df2 = part.error_df(out[index])
+        for j in np.flatnonzero(df2 < 1).tolist():
+            i = int(index[j])
+            errors[i] = InvalidParameter(
+                "group_sizes", list(sizes[i]),
+                "leaves no error degrees of freedom (total must exceed the number of groups)",
+            )
+    return out, errors
+
+
+def sizes_for_rows(rows: Rows, n_per_group) -> tuple[np.ndarray, RowErrors]:
+    """Sizes from each row's ``n_per_group`` (the smallest group's size under its allocation)."""
+    count = rows.count
+    n = _column(n_per_group, count, np.int64)
+    errors: RowErrors = [None] * count
+    unit = rows.smallest_unit()
+    for i in np.flatnonzero(n < unit).tolist():
+        errors[i] = InvalidParameter(
+            "n_per_group", int(n[i]),
+            f"must be at least {int(unit[i])} so that error degrees of freedom remain",
+        )
+    sizes = sizes_from_rows(np.maximum(n, 1), rows.ratios)
+    for i in np.flatnonzero(sizes.max(axis=1) > SIZE_CAP).tolist():
+        if errors[i] is None:
+            errors[i] = InvalidParameter("n_per_group", int(n[i]), f"no group may exceed {SIZE_CAP} units")
+    return sizes, errors
+
+
+# -- the three questions, row by row ----------------------------------------------------------
+
+
+def power_rows(rows: Rows, *, sizes: np.ndarray, alpha) -> PowerRows:
+    """Power of every row's level-α test at its sizes (validated with the sizes functions)."""
+    alpha = _column(alpha, rows.count)
+    sizes = np.asarray(sizes, dtype=np.int64).reshape(rows.count, rows.groups)
+    return _power_rows_at(rows, np.arange(rows.count), sizes, alpha)
+
+
+def _target_errors(target: np.ndarray, alpha: np.ndarray) -> RowErrors:
+    errors: RowErrors = [None] * target.size
+    for i in np.flatnonzero(~(target > alpha)).tolist():
+        errors[i] = InvalidParameter("target_power", float(target[i]), f"must exceed alpha ({float(alpha[i])})")
+    return errors
+
+
+def sample_size_rows(rows: Rows, *, alpha, target_power, dropout_rate=0.0,
+                     cap: int = SIZE_CAP) -> tuple[SampleSizeRows, RowErrors]:
+    """Smallest integer design with power ≥ the target, for every row.
+
+    The search is over m, the smallest group's size, with n_i = ceil(m · r_i / min r)
+    (``sizes_from_rows``); power is non-decreasing in m because λ grows and the critical
+    value falls as N grows. Rows sharing a cap on m search in lockstep
+    (``solve.smallest_integer_reaching``); only the rows whose probe moved are evaluated
+    again. Enrolment with dropout rate d is ceil(n_i / (1 − d)) per group (not n_i(1 + d),
+    which under-enrols).
+
+    A row has a NoSolution error when the smallest group would need more than ``cap``
+    units divided by its largest ratio (so no group exceeds ``cap``), or its effect is zero.
+    """
+    count = rows.count
+    alpha = _column(alpha, count)
+    target = _column(target_power, count)
+    dropout = _column(dropout_rate, count)
+    errors = _target_errors(target, alpha)
+    lower = rows.smallest_unit()
+    m_cap = np.array([int(cap // r) for r in rows.ratios.max(axis=1).tolist()], dtype=np.int64)
+    for i in range(count):
+        if errors[i] is None and m_cap[i] < lower[i]:
+            errors[i] = NoSolution(
+                "design.allocation", list(rows.designs[i].ratios),
+                "the allocation leaves no feasible size under the cap",
+            )
+
+    index = np.array([i for i in range(count) if errors[i] is None], dtype=np.int64)
+    if index.size:
+        part = rows if index.size == count else rows.take(index)
+        lam_cap = part.noncentrality(sizes_from_rows(m_cap[index], part.ratios), alpha[index])
+        for j in np.flatnonzero(~(lam_cap > 0)).tolist():
+            errors[int(index[j])] = NoSolution(
+                "design", "zero effect",
+                "the effect is zero, so the power equals alpha at every size; no sample size reaches the target",
+            )
+
+    m = np.zeros(count, dtype=np.int64)
+    index = np.array([i for i in range(count) if errors[i] is None], dtype=np.int64)
+    for cap_m in np.unique(m_cap[index]).tolist() if index.size else []:
+        sel = index[m_cap[index] == cap_m]
+        part = rows if sel.size == count else rows.take(sel)
+        part_alpha = alpha[sel]
+        seen_m = np.full(sel.size, -1, dtype=np.int64)
+        seen_power = np.zeros(sel.size)
+
+        def power_at(probe: np.ndarray, part=part, part_alpha=part_alpha, seen_m=seen_m,
+                     seen_power=seen_power) -> np.ndarray:
+            moved = np.flatnonzero(probe != seen_m)
+            if moved.size:
+                sub = part if moved.size == part.count else part.take(moved)
+                ev = sub.evaluate(sizes_from_rows(probe[moved], sub.ratios), part_alpha[moved])
+                seen_power[moved] = ev.power
+                seen_m[moved] = probe[moved]
+            return seen_power.copy()
+
+        found_m, found = smallest_integer_reaching(power_at, target=target[sel], lower=lower[sel], cap=int(cap_m))
+        m[sel] = found_m
+        short = np.flatnonzero(~found)
+        if short.size:
+            sub = part.take(short)
+            at_cap = sub.evaluate(sizes_from_rows(np.full(short.size, cap_m), sub.ratios), part_alpha[short])
+            for j, p in zip(short.tolist(), at_cap.power.tolist(), strict=True):
+                i = int(sel[j])
+                errors[i] = NoSolution(
+                    "target_power", float(target[i]),
+                    f"required size exceeds the cap of {cap} units per group "
+                    f"(power at the cap is {p:.6g}); the effect is too small to detect",
+                )
+
+    index = np.array([i for i in range(count) if errors[i] is None], dtype=np.int64)
+    answer = _power_rows_at(rows, index, sizes_from_rows(np.maximum(m, 1), rows.ratios), alpha)
+    has_smaller = np.zeros(count, dtype=bool)
+    has_smaller[index] = m[index] > lower[index]
+    smaller_index = np.flatnonzero(has_smaller)
+    previous = _power_rows_at(rows, smaller_index, sizes_from_rows(np.maximum(m - 1, 1), rows.ratios), alpha)
+    raw = answer.sizes.astype(float) / (1.0 - dropout).reshape(-1, 1)
+    enrolment = np.ceil(raw * (1 - _DROPOUT_SLACK)).astype(np.int64)
+    return SampleSizeRows(
+        target_power=target, answer=answer, one_step_smaller=previous, has_smaller=has_smaller,
+        smallest_group=m, dropout_rate=dropout, enrolment=enrolment,
+    ), errors
+
+
+def detectable_rows(rows: Rows, *, sizes: np.ndarray, alpha, target_power) -> tuple[DetectableRows, RowErrors]:
+    """Smallest noncentrality detectable at the target power with each row's sizes.
+
+    Solved by bracketing and regula falsi on each design's exact power
+    (``Rows.power_at_noncentrality``; ``solve.noncentrality_for_power``), relative accuracy
+    1e-13, all rows in lockstep; never by scipy's inverse-noncentrality helper, which
+    clamps silently at 10,000 and errs by percents.
+    """
+    count = rows.count
+    alpha = _column(alpha, count)
+    target = _column(target_power, count)
+    sizes = np.asarray(sizes, dtype=np.int64).reshape(count, rows.groups)
+    errors = _target_errors(target, alpha)
+    index = np.array([i for i in range(count) if errors[i] is None], dtype=np.int64)
+    lam = np.zeros(count)
+    check_power = np.zeros(count)
+    df1 = np.zeros(count)
+    df2 = np.zeros(count)
+    crit = np.zeros(count)
+    check_sizes = np.zeros((count, rows.groups), dtype=np.int64)
+    if index.size:
+        part = rows if index.size == count else rows.take(index)
+        part_sizes, part_alpha = sizes[index], alpha[index]
+        ev = part.evaluate(part_sizes, part_alpha)
+
+        def power_of(values: np.ndarray, mask: np.ndarray) -> np.ndarray:
+            return part.power_at_noncentrality(values, part_sizes, part_alpha, ev, mask)
+
+        found_lam, found = noncentrality_for_power(
+            power_of, target=target[index], start=np.maximum(1.0, np.asarray(ev.df1, dtype=float))
+        )
+        for j in np.flatnonzero(~found).tolist():
+            i = int(index[j])
+            errors[i] = NoSolution(
+                "target_power", float(target[i]),
+                f"the detectable noncentrality exceeds {MAX_NONCENTRALITY:g}; "
+                "add error degrees of freedom or lower the target",
+            )
+        lam[index] = found_lam
+        check_power[index] = power_of(found_lam, found)
+        df1[index], df2[index], crit[index] = ev.df1, ev.df2, ev.critical_value
+        check_sizes[index] = part_sizes
+    check = PowerRows(
+        alpha=alpha, power=check_power, df_numerator=df1, df_denominator=df2,
+        noncentrality=lam, critical_value=crit, sizes=check_sizes,
+    )
+    return DetectableRows(target_power=target, noncentrality=lam, check=check), errors
+
+
+# -- one question at a time ---------------------------------------------------------------------
+
+
+def _raise_first(errors: RowErrors) -> None:
+    if errors[0] is not None:
+        raise errors[0]
 
 
 def check_sizes(design, sizes) -> np.ndarray:
     """Validate explicit group sizes against the design (count, ≥ 1, error df ≥ 1)."""
-    arr = np.asarray(sizes, dtype=np.int64)
-    if arr.shape != (design.groups,):
-        raise InvalidParameter("group_sizes", list(sizes), f"needs one size per group ({design.groups})")
-    if np.any(arr < 1) or np.any(arr > SIZE_CAP):
-        raise InvalidParameter("group_sizes", list(sizes), f"every size must be between 1 and {SIZE_CAP}")
-    if design.evaluate(arr.reshape(1, -1), 0.05).df2[0] < 1:
-        raise InvalidParameter(
-            "group_sizes", list(sizes),
-            "leaves no error degrees of freedom (total must exceed the number of groups)",
-        )
-    return arr
+    out, errors = check_sizes_rows(Rows([design]), [sizes])
+    _raise_first(errors)
+    return out[0]
 
 
 def sizes_for(design, n_per_group: int) -> np.ndarray:
     """Sizes from ``n_per_group`` (the smallest group's size under an allocation)."""
-    if n_per_group < design.smallest_unit():
-        raise InvalidParameter(
-            "n_per_group", n_per_group,
-            f"must be at least {design.smallest_unit()} so that error degrees of freedom remain",
-        )
-    sizes = sizes_from_smallest([n_per_group], design.ratios)[0]
-    if sizes.max() > SIZE_CAP:
-        raise InvalidParameter("n_per_group", n_per_group, f"no group may exceed {SIZE_CAP} units")
-    return sizes
+    out, errors = sizes_for_rows(Rows([design]), [n_per_group])
+    _raise_first(errors)
+    return out[0]
 
 
 def power(design, *, sizes, alpha: float) -> PowerResult:
     """Power of the level-α test of ``design`` at ``sizes`` (validated with check_sizes)."""
-    return _result(design, np.asarray(sizes, dtype=np.int64), alpha)
+    sizes = np.asarray(sizes, dtype=np.int64).reshape(1, -1)
+    return power_rows(Rows([design]), sizes=sizes, alpha=alpha).result(0)
 
 
 def sample_size(design, *, alpha: float, target_power: float, dropout_rate: float = 0.0,
                 cap: int = SIZE_CAP) -> SampleSizeResult:
-    """Smallest integer design with power ≥ ``target_power``.
+    """Smallest integer design with power ≥ ``target_power`` (see ``sample_size_rows``).
 
-    The search is over m, the smallest group's size, with n_i = ceil(m · r_i / min r)
-    (``sizes_from_smallest``); power is non-decreasing in m because λ grows and the
-    critical value falls as N grows. Enrolment with dropout rate d is ceil(n_i / (1 − d))
-    per group (not n_i(1 + d), which under-enrols).
-
-    Raises NoSolution when the smallest group would need more than ``cap`` units
-    divided by the largest ratio (so no group exceeds ``cap``).
+    Raises InvalidParameter when the target does not exceed α and NoSolution when no
+    size under ``cap`` reaches it.
     """
-    if not target_power > alpha:
-        raise InvalidParameter("target_power", target_power, f"must exceed alpha ({alpha})")
-    lower = design.smallest_unit()
-    m_cap = int(cap // float(design.ratios.max()))
-    if m_cap < lower:
-        raise NoSolution("design.allocation", list(design.ratios), "the allocation leaves no feasible size under the cap")
-
-    at_cap = design.evaluate(sizes_from_smallest([m_cap], design.ratios), alpha)
-    if not at_cap.noncentrality[0] > 0:
-        raise NoSolution(
-            "design", "zero effect",
-            "the effect is zero, so the power equals alpha at every size; no sample size reaches the target",
-        )
-
-    def power_at(m: np.ndarray) -> np.ndarray:
-        return design.evaluate(sizes_from_smallest(m, design.ratios), alpha).power
-
-    m, found = smallest_integer_reaching(
-        power_at, target=np.array([target_power]), lower=np.array([lower]), cap=m_cap
+    found, errors = sample_size_rows(
+        Rows([design]), alpha=alpha, target_power=target_power, dropout_rate=dropout_rate, cap=cap
     )
-    if not found[0]:
-        best = _result(design, sizes_from_smallest([m_cap], design.ratios)[0], alpha)
-        raise NoSolution(
-            "target_power", target_power,
-            f"required size exceeds the cap of {cap} units per group "
-            f"(power at the cap is {best.power:.6g}); the effect is too small to detect",
-        )
-    m = int(m[0])
-    answer = _result(design, sizes_from_smallest([m], design.ratios)[0], alpha)
-    previous = None
-    if m > lower:
-        previous = _result(design, sizes_from_smallest([m - 1], design.ratios)[0], alpha)
-    enrol = None
-    if dropout_rate > 0:
-        raw = np.asarray(answer.group_sizes, dtype=float) / (1.0 - dropout_rate)
-        enrol = tuple(int(v) for v in np.ceil(raw * (1 - _DROPOUT_SLACK)))
-    return SampleSizeResult(
-        target_power=float(target_power),
-        answer=answer,
-        one_step_smaller=previous,
-        smallest_group=m,
-        dropout_rate=float(dropout_rate),
-        enrolment_sizes=enrol,
-    )
+    _raise_first(errors)
+    return found.result(0)
 
 
 def detectable_effect(design, *, sizes, alpha: float, target_power: float) -> DetectableResult:
-    """Smallest noncentrality detectable at ``target_power`` with ``sizes``.
-
-    Solved by bracketing and regula falsi on the design's exact power
-    (``design.power_at_noncentrality``; ``solve.py``), relative accuracy 1e-13; never by
-    scipy's inverse-noncentrality helper, which clamps silently at 10,000 and errs by
-    percents.
-    """
-    if not target_power > alpha:
-        raise InvalidParameter("target_power", target_power, f"must exceed alpha ({alpha})")
-    sizes = np.asarray(sizes, dtype=np.int64)
-    probe = design.evaluate(sizes.reshape(1, -1), alpha)
-
-    def power_of(lam: np.ndarray, _mask: np.ndarray) -> np.ndarray:
-        return design.power_at_noncentrality(lam, sizes, alpha)
-
-    lam, found = noncentrality_for_power(
-        power_of, target=np.array([target_power]), start=np.array([max(1.0, float(probe.df1[0]))])
-    )
-    if not found[0]:
-        raise NoSolution(
-            "target_power", target_power,
-            f"the detectable noncentrality exceeds {MAX_NONCENTRALITY:g}; "
-            "add error degrees of freedom or lower the target",
-        )
-    lam = float(lam[0])
-    check = PowerResult(
-        alpha=float(alpha),
-        power=float(power_of(np.array([lam]), np.array([True]))[0]),
-        df_numerator=float(probe.df1[0]),
-        df_denominator=float(probe.df2[0]),
-        noncentrality=lam,
-        critical_value=float(probe.critical_value[0]),
-        group_sizes=tuple(int(v) for v in sizes),
-    )
-    return DetectableResult(target_power=float(target_power), noncentrality=lam, check=check)
+    """Smallest noncentrality detectable at ``target_power`` with ``sizes`` (see ``detectable_rows``)."""
+    sizes = np.asarray(sizes, dtype=np.int64).reshape(1, -1)
+    found, errors = detectable_rows(Rows([design]), sizes=sizes, alpha=alpha, target_power=target_power)
+    _raise_first(errors)
+    return found.result(0)

@@ -5,17 +5,20 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from marshmallow import Schema, ValidationError, validates_schema
+from marshmallow import ValidationError, validates_schema
 
 from ...core.designs.base import is_equal, normalised_allocation
 from ...core.designs.one_way import OneWayAnova, eta_squared_from_f, f_from_eta_squared
-from ..fields import Bounded, BoundedList, StrictFloat, StrictInteger, choice
+from ..fields import Bounded, BoundedList, StrictFloat, StrictInteger, StrictSchema, choice
 from .common import MAX_GROUPS, MEAN_BOUND, SD_BOUND, Layout, allocation_field
 
 EFFECT_FIELDS = ("group_means", "cohens_f", "eta_squared", "min_range")
+#: Largest Cohen's f accepted in any of its forms (power is 1 long before; beyond it the
+#: noncentrality can exceed what the power computation represents, and it returns NaN).
+MAX_COHENS_F = 10.0
 
 
-class OneWayAnovaDesignSchema(Schema):
+class OneWayAnovaDesignSchema(StrictSchema):
     """One-way fixed-effects ANOVA: k group means compared by the omnibus F test."""
 
     type = choice(["one_way_anova"], required=True, metadata={"description": "Design family."})
@@ -29,7 +32,7 @@ class OneWayAnovaDesignSchema(Schema):
         metadata={"description": "Common within-group (error) standard deviation σ, in the units of the data."},
     )
     cohens_f = StrictFloat(
-        validate=Bounded(min=0, max=10),
+        validate=Bounded(min=0, max=MAX_COHENS_F),
         metadata={"description": "Cohen's f = σ_m/σ, the SD of the group means over the error SD (with `groups`)."},
     )
     eta_squared = StrictFloat(
@@ -81,6 +84,10 @@ class OneWayAnovaAdapter:
         "power = P(F'(df1, df2, λ) > F_crit(α))"
     )
     effect_fields = EFFECT_FIELDS
+    #: Invented example for the catalogue and the simulation check: three curing times,
+    #: means 61, 64, 66 MPa, SD 5 MPa (the README's scenario); power ≈ 0.55 at 12 per group.
+    example = {"type": "one_way_anova", "groups": 3, "group_means": [61, 64, 66], "sd": 5}
+    example_sizes = 12
     assumptions = (
         "Observations are independent, within and between groups.",
         "Within each group the response is normally distributed.",
@@ -101,6 +108,8 @@ class OneWayAnovaAdapter:
             k = sizes_count
         else:
             raise ValidationError("is required (or give group_means, allocation or group_sizes)", "design.groups")
+        if k < 2:  # only group_sizes can imply a single group; the design fields need two
+            raise ValidationError(f"needs at least 2 groups to compare (got {k} size)", "group_sizes")
         if sizes_count is not None and sizes_count != k:
             raise ValidationError(f"needs one size per group ({k}) (got {sizes_count})", "group_sizes")
         return k
@@ -109,9 +118,10 @@ class OneWayAnovaAdapter:
         """The core design, for power and sample-size questions."""
         given = [name for name in EFFECT_FIELDS if name in fields]
         if not given:
-            raise ValidationError(f"give exactly one of {', '.join(EFFECT_FIELDS)}", "design._effect")
+            raise ValidationError(f"give exactly one of {', '.join(EFFECT_FIELDS)}", "design")
         k = self.groups_of(fields, sizes_count)
         allocation = fields.get("allocation")
+        self._check_effect_size(fields, k, allocation)
         if "group_means" in fields:
             return OneWayAnova.from_means(fields["group_means"], fields["sd"], allocation)
         if "cohens_f" in fields:
@@ -122,6 +132,31 @@ class OneWayAnovaAdapter:
                 source="eta_squared",
             )
         return OneWayAnova.from_min_range(fields["min_range"], fields["sd"], k, allocation)
+
+    @staticmethod
+    def _check_effect_size(fields: dict, k: int, allocation) -> None:
+        """Means and SD, or a range and SD, may not imply an f above MAX_COHENS_F."""
+        sd = fields.get("sd")
+        if "group_means" in fields:
+            means = np.asarray(fields["group_means"], dtype=float)
+            weights = normalised_allocation(allocation, k)
+            weights = weights / weights.sum()
+            sd_of_means = float(np.sqrt(np.sum(weights * (means - np.sum(weights * means)) ** 2)))
+            if sd_of_means > MAX_COHENS_F * sd:
+                raise ValidationError(
+                    f"imply Cohen's f = σ_m/σ above {MAX_COHENS_F:g}: the SD of the means is "
+                    f"{sd_of_means:.6g} with sd {sd:.6g}; the SD of the means may be at most "
+                    f"{MAX_COHENS_F:g}·sd = {MAX_COHENS_F * sd:.6g}",
+                    "design.group_means",
+                )
+        elif "min_range" in fields:
+            limit = MAX_COHENS_F * sd * math.sqrt(2.0 * k)
+            if fields["min_range"] > limit:
+                raise ValidationError(
+                    f"implies Cohen's f = Δ/(σ√(2k)) above {MAX_COHENS_F:g}: with sd {sd:.6g} and {k} groups "
+                    f"it may be at most {limit:.6g} (got {fields['min_range']:.6g})",
+                    "design.min_range",
+                )
 
     def layout(self, fields: dict, sizes_count: int | None) -> Layout:
         """Groups, allocation and SD, for the detectable-effect question."""
