@@ -7,7 +7,7 @@ HOST   ?= 127.0.0.1
 PORT   ?= 8000
 STAMP  := $(VENV)/.stamp-install
 
-.PHONY: install serve test lint spec spec-check clean
+.PHONY: install serve test lint spec spec-check clean load
 
 $(STAMP): pyproject.toml
 	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
@@ -18,7 +18,7 @@ $(STAMP): pyproject.toml
 install: $(STAMP)
 
 serve: $(STAMP)
-	HOST=$(HOST) PORT=$(PORT) $(BIN)/gunicorn --config deploy/gunicorn.conf.py samplewright.wsgi:app
+	SAMPLEWRIGHT_HOST=$(HOST) SAMPLEWRIGHT_PORT=$(PORT) $(BIN)/gunicorn --config deploy/gunicorn.conf.py samplewright.wsgi:app
 
 lint: $(STAMP)
 	$(BIN)/ruff check service tests examples
@@ -31,6 +31,14 @@ spec-check: $(STAMP)
 
 test: $(STAMP) lint spec-check
 	$(BIN)/python -m pytest
+
+# Load and fault runs against a gunicorn on 127.0.0.1 started from deploy/gunicorn.conf.py
+# (tests/load/run.py; bounded, loopback only; not part of `make test`). About 2 minutes with
+# the defaults; `make load LOAD_DURATION=10` for a quick look.
+LOAD_DURATION    ?= 60
+LOAD_CONNECTIONS ?= 32
+load: $(STAMP)
+	$(BIN)/python tests/load/run.py --duration $(LOAD_DURATION) --connections $(LOAD_CONNECTIONS) --json $(VENV)/load-report.json
 
 clean:
 	rm -rf $(VENV) build dist service/*.egg-info .pytest_cache .hypothesis .ruff_cache

@@ -3,15 +3,17 @@
 from __future__ import annotations
 
 import json
-import logging
+import time
 import uuid
 
 from flask import Flask, g, request
 from flask.json.provider import JSONProvider
 
+from . import observability, security
 from .api import problems
 from .api.routes import bp
 from .config import Settings
+from .logs import configure_logging
 
 
 class StrictJSONProvider(JSONProvider):
@@ -30,22 +32,46 @@ def create_app(settings: Settings | None = None) -> Flask:
     app = Flask(__name__)
     app.json = StrictJSONProvider(app)
     app.config["SETTINGS"] = settings
-    app.config["PROPAGATE_EXCEPTIONS"] = False
-    logging.getLogger("samplewright").setLevel(settings.log_level)
+    # Never the debugger, never a traceback in a response, whatever FLASK_DEBUG says.
+    app.config.update(DEBUG=False, TESTING=False, PROPAGATE_EXCEPTIONS=False,
+                      TRAP_HTTP_EXCEPTIONS=False, TRAP_BAD_REQUEST_ERRORS=False)
+    app.debug = False
+    configure_logging(settings.log_level)
+    keys = security.KeyChecker(settings.api_keys)
 
     @app.before_request
     def _request_id():
+        g.started = time.perf_counter()
         supplied = request.headers.get("X-Request-ID", "")
         ok = 0 < len(supplied) <= 128 and supplied.isascii() and supplied.isprintable()
         g.request_id = supplied if ok else uuid.uuid4().hex
 
+    @app.before_request
+    def _cors_and_auth():
+        preflight = security.preflight_response(settings)
+        if preflight is not None:
+            return preflight
+        security.require_key(settings, keys)
+        return None
+
     @app.after_request
-    def _headers(response):
+    def _finish(response):
         response.headers["X-Request-ID"] = g.get("request_id", "")
-        response.headers["Cache-Control"] = "no-store"
-        response.headers["X-Content-Type-Options"] = "nosniff"
+        security.apply_headers(settings, response)
+        rule = request.url_rule.rule if request.url_rule is not None else None
+        observability.observe_request(rule, request.method, response.status_code,
+                                      time.perf_counter() - g.get("started", time.perf_counter()))
+        problem_type = g.get("problem_type")
+        if problem_type is not None:
+            observability.observe_problem(problem_type, response.status_code)
         return response
+
+    @app.errorhandler(security.BodyTimeout)
+    def _body_timeout(exc):
+        return problems.render(408, "body-timeout", "Request Timeout",
+                               f"the request body did not arrive within {settings.body_timeout:g} seconds")
 
     problems.init_app(app)
     app.register_blueprint(bp)
+    app.wsgi_app = security.BodyDeadline(app.wsgi_app, settings.body_timeout)
     return app

@@ -106,6 +106,7 @@ def render(status: int, slug: str | None, title: str, detail: str,
     rid = getattr(g, "request_id", None)
     if rid:
         body["request_id"] = rid
+    g.problem_type = body["type"]  # counted by type in the metrics (app.py, after_request)
     if errors:
         kept, omitted = cap_errors(errors)
         body["errors"] = kept
