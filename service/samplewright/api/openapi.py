@@ -72,19 +72,29 @@ def build_spec() -> dict:
     for adapter in sorted(ADAPTERS.values(), key=lambda a: a.type):
         spec.components.schema(_schema_name(adapter.schema), schema=adapter.schema)
     spec.components.schema("Problem", schema=ProblemSchema)
+    # Documented, not required: API keys are a per-deployment choice (SAMPLEWRIGHT_API_KEYS).
+    spec.components.security_scheme("bearerKey", {"type": "http", "scheme": "bearer",
+                                                  "description": "An API key as a bearer token."})
+    spec.components.security_scheme("headerKey", {"type": "apiKey", "in": "header", "name": "X-API-Key"})
     problem = {"application/problem+json": {"schema": {"$ref": "#/components/schemas/Problem"}}}
     by_path: dict[str, dict] = {}
     for ep in ENDPOINTS:
         op: dict = {"summary": ep.summary, "tags": [ep.tag], "operationId": ep.path.strip("/").replace("/", "_").replace("-", "_").replace(".", "_"), "responses": {}}
         if ep.response is not None:
-            op["responses"]["200"] = {"description": "OK", "content": {"application/json": {"schema": ep.response}}}
+            op["responses"]["200"] = {"description": "OK", "content": {ep.media_type: {"schema": ep.response}}}
         else:
-            op["responses"]["200"] = {"description": "OK", "content": {"application/json": {"schema": {"type": "object"}}}}
+            fallback = {"type": "object"} if ep.media_type == "application/json" else {"type": "string"}
+            op["responses"]["200"] = {"description": "OK", "content": {ep.media_type: {"schema": fallback}}}
         if ep.request is not None:
             op["requestBody"] = {"required": True, "content": {"application/json": {"schema": ep.request}}}
-            for code, why in (("400", "Body is not valid JSON."), ("413", "Body too large."),
-                              ("415", "Body is not application/json."), ("422", "Invalid or not computable.")):
+            for code, why in (("400", "Body is not valid JSON."), ("408", "Body not received in time."),
+                              ("413", "Body too large."), ("415", "Body is not application/json."),
+                              ("422", "Invalid or not computable.")):
                 op["responses"][code] = {"description": why, "content": problem}
+        for code, why in ep.problems:
+            op["responses"][code] = {"description": why, "content": problem}
+        op["responses"]["401"] = {"description": "API key missing or not accepted (only when the "
+                                  "service is configured with API keys).", "content": problem}
         op["responses"]["405"] = {"description": "Method not allowed.", "content": problem}
         op["responses"]["500"] = {"description": "Internal error (never for client input).", "content": problem}
         by_path.setdefault(ep.path, {})[ep.method.lower()] = op

@@ -7,13 +7,14 @@ against it): the routes build plain dicts, which is cheaper than a marshmallow d
 
 from __future__ import annotations
 
-from marshmallow import INCLUDE, RAISE, Schema, ValidationError, fields, validates_schema
+from marshmallow import INCLUDE, Schema, ValidationError, fields, validates_schema
 
 from ..core.errors import show
 from ..core.planning import SIZE_CAP
 from .designs import ADAPTERS, SCHEMAS
 from .designs.common import MAX_GROUPS
-from .fields import Bounded, BoundedList, StrictFloat, StrictInteger
+from .fastload import loader_for
+from .fields import Bounded, BoundedList, StrictFloat, StrictInteger, StrictSchema
 
 ALPHA_MIN, ALPHA_MAX = 1e-12, 0.5
 POWER_MAX = 0.9999
@@ -27,9 +28,9 @@ class DesignField(fields.Field):
         if not isinstance(value, dict):
             raise ValidationError(f"must be a JSON object with a 'type' (got {show(value)})")
         kind = value.get("type")
-        if kind not in SCHEMAS:
+        if not isinstance(kind, str) or kind not in SCHEMAS:
             raise ValidationError({"type": [f"must be one of {sorted(SCHEMAS)} (got {show(kind)})"]})
-        return SCHEMAS[kind].load(value)
+        return loader_for(SCHEMAS[kind], shareable=True).load(value)  # same result and errors as .load
 
 
 def alpha_field():
@@ -66,10 +67,7 @@ def group_sizes_field():
     )
 
 
-class _Request(Schema):
-    class Meta:
-        unknown = RAISE
-
+class _Request(StrictSchema):
     design = DesignField(required=True, metadata={"description": "The planned design, selected by `type`."})
 
     def _target_above_alpha(self, data):
@@ -84,10 +82,16 @@ class _SizedRequest(_Request):
     n_per_group = n_per_group_field()
     group_sizes = group_sizes_field()
 
-    @validates_schema
-    def _one_size(self, data, **kwargs):
-        if ("n_per_group" in data) == ("group_sizes" in data):
-            raise ValidationError("give exactly one of n_per_group and group_sizes", "n_per_group")
+    @validates_schema(pass_original=True, skip_on_field_errors=False)
+    def _one_size(self, data, original_data, **kwargs):
+        # On the raw body, so that a missing size is reported beside other field errors
+        # and an invalid one is not also reported as missing.
+        given = [name for name in ("n_per_group", "group_sizes") if name in original_data]
+        if len(given) != 1:
+            raise ValidationError(
+                f"give exactly one of n_per_group and group_sizes (got {' and '.join(given) or 'neither'})",
+                "n_per_group",
+            )
 
 
 class PowerRequestSchema(_SizedRequest):
@@ -143,6 +147,23 @@ class EffectSchema(Schema):
     range_of_means = fields.Float(metadata={"description": "Largest minus smallest group mean (means given)."})
 
 
+class ProvenanceSchema(Schema):
+    """What produced the answer, and a digest that identifies the question (README, "Provenance")."""
+
+    service_version = fields.String(required=True)
+    numpy_version = fields.String(required=True)
+    scipy_version = fields.String(required=True)
+    method_id = fields.String(required=True, metadata={"description": "Stable identifier of the method used."})
+    method_reference = fields.String(required=True, metadata={"description": "Published source of the formula."})
+    request_digest = fields.String(
+        required=True,
+        metadata={"description": "SHA-256 (64 hex digits) of the canonical JSON of the validated request with "
+                                 "its defaults filled in: sorted keys, no whitespace, UTF-8.",
+                  "pattern": "^[0-9a-f]{64}$"},
+    )
+    canonical_form = fields.String(required=True, metadata={"description": "Identifier of the canonical form."})
+
+
 class _Common(Schema):
     alpha = fields.Float(required=True)
     design_type = fields.String(required=True, metadata={"enum": sorted(ADAPTERS)})
@@ -159,6 +180,7 @@ class _Common(Schema):
     details = fields.Dict(
         metadata={"description": "Design-specific extras (per-comparison powers, what-if tables, …)."}
     )
+    provenance = fields.Nested(ProvenanceSchema, required=True)
 
 
 class PowerResponseSchema(_Common):

@@ -23,6 +23,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy import special
 
 from .errors import InvalidParameter, NoSolution
 from .solve import MAX_NONCENTRALITY, noncentrality_for_power, smallest_integer_reaching
@@ -242,6 +243,39 @@ def _target_errors(target: np.ndarray, alpha: np.ndarray) -> RowErrors:
     return errors
 
 
+def _chi_square_noncentrality(df1, alpha, target, fallback: np.ndarray) -> np.ndarray:
+    """λ∞ with P(χ²'(df1, λ∞) > χ²_α(df1)) = target: the F test's need at infinite error df.
+
+    Finite error df need a larger λ, so λ∞ is a good lower start for the exact searches.
+    scipy's inverse is used only as a guess (the searches stay exact); where it fails the
+    fallback is kept.
+    """
+    with np.errstate(all="ignore"):
+        crit = special.chdtri(df1, alpha)
+        lam = special.chndtrinc(crit, df1, 1.0 - np.asarray(target, dtype=float))
+    return np.where(np.isfinite(lam) & (lam > 0), lam, fallback)
+
+
+def _size_guess(rows: Rows, lower: np.ndarray, alpha: np.ndarray, target: np.ndarray) -> np.ndarray | None:
+    """A starting size just below the answer, for rows tested by the default F test.
+
+    With infinite error df the F test becomes the χ² test of λ, whose required λ∞
+    solves P(χ²'(df1, λ) > χ²_α(df1)) = target; finite error df need a larger λ, so
+    m ≈ λ∞ / (λ per unit of m) sits at or just below the answer and the galloping search
+    from it needs a few evaluations instead of ~2·log2(m). Only a guess: the search
+    stays exact whatever it is, and rows without a sensible one start at ``lower``.
+    """
+    if not rows.vectorised or not getattr(rows, "_default_evaluate", False):
+        return None
+    test = rows.tests(sizes_from_rows(lower, rows.ratios))
+    per_unit = np.asarray(test.noncentrality, dtype=float) / lower
+    lam_inf = _chi_square_noncentrality(test.df1, alpha, target, np.full(lower.shape, np.nan))
+    with np.errstate(all="ignore"):
+        guess = np.floor(lam_inf / per_unit)
+    guess = np.where(np.isfinite(guess) & (guess > lower), guess, lower)
+    return np.minimum(guess, 2**62).astype(np.int64)
+
+
 def sample_size_rows(rows: Rows, *, alpha, target_power, dropout_rate=0.0,
                      cap: int = SIZE_CAP) -> tuple[SampleSizeRows, RowErrors]:
     """Smallest integer design with power ≥ the target, for every row.
@@ -299,7 +333,10 @@ def sample_size_rows(rows: Rows, *, alpha, target_power, dropout_rate=0.0,
                 seen_m[moved] = probe[moved]
             return seen_power.copy()
 
-        found_m, found = smallest_integer_reaching(power_at, target=target[sel], lower=lower[sel], cap=int(cap_m))
+        found_m, found = smallest_integer_reaching(
+            power_at, target=target[sel], lower=lower[sel], cap=int(cap_m),
+            start=_size_guess(part, lower[sel], part_alpha, target[sel]),
+        )
         m[sel] = found_m
         short = np.flatnonzero(~found)
         if short.size:
@@ -355,9 +392,10 @@ def detectable_rows(rows: Rows, *, sizes: np.ndarray, alpha, target_power) -> tu
         def power_of(values: np.ndarray, mask: np.ndarray) -> np.ndarray:
             return part.power_at_noncentrality(values, part_sizes, part_alpha, ev, mask)
 
-        found_lam, found = noncentrality_for_power(
-            power_of, target=target[index], start=np.maximum(1.0, np.asarray(ev.df1, dtype=float))
-        )
+        start = np.maximum(1.0, np.asarray(ev.df1, dtype=float))
+        if getattr(part, "_default_evaluate", False):
+            start = _chi_square_noncentrality(ev.df1, part_alpha, target[index], start)
+        found_lam, found = noncentrality_for_power(power_of, target=target[index], start=start)
         for j in np.flatnonzero(~found).tolist():
             i = int(index[j])
             errors[i] = NoSolution(

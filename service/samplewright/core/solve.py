@@ -23,44 +23,55 @@ def smallest_integer_reaching(
     target: np.ndarray,
     lower: np.ndarray,
     cap: int,
+    start: np.ndarray | None = None,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Smallest integer m in [lower, cap] with power_at(m) ≥ target, for arrays of problems.
 
     ``power_at`` maps an integer array m (one entry per problem) to the power of each
-    problem at that size; it must be non-decreasing in m. The search doubles an upper
-    bracket from ``lower`` (at most log2(cap) + 1 steps) and then bisects (at most
-    log2(cap) + 1 more), so the cost is O(log cap) vectorised evaluations.
+    problem at that size; it must be non-decreasing in m. From ``start`` (default
+    ``lower``; any guess, clipped to [lower, cap]) the search gallops, with steps 1, 2,
+    4, …, upwards while the power falls short or downwards while it reaches, until the
+    answer is bracketed (at most log2(cap) + 2 steps), then bisects the bracket (at most
+    log2(cap) + 2 more). A guess just below the answer costs a handful of evaluations;
+    a poor one costs no more than the plain doubling search.
 
     Returns ``(m, found)``: ``found`` is False where even ``cap`` falls short; ``m`` is
     then ``cap``.
     """
     target = np.asarray(target, dtype=float)
     lower = np.asarray(lower, dtype=np.int64)
-    good = np.full(lower.shape, cap, dtype=np.int64)  # a size known (or assumed) to reach
-    bad = lower - 1  # the largest size known to fall short
-    probe = lower.copy()
-    open_ = np.ones(lower.shape, dtype=bool)  # still doubling
-    for _ in range(int(np.ceil(np.log2(max(cap, 2)))) + 2):
-        if not open_.any():
+    probe = lower.copy() if start is None else np.clip(np.asarray(start, dtype=np.int64), lower, cap)
+    good = np.full(lower.shape, cap + 1, dtype=np.int64)  # smallest size known to reach
+    bad = lower - 1  # largest size known to fall short
+    reached = power_at(probe) >= target
+    good = np.where(reached, probe, good)
+    bad = np.where(reached, bad, probe)
+    up = ~reached & (probe < cap)  # galloping towards larger sizes
+    down = reached & (probe > lower)  # galloping towards smaller sizes
+    step = np.ones(lower.shape, dtype=np.int64)
+    steps = int(np.ceil(np.log2(max(cap, 2)))) + 2
+    for _ in range(steps):
+        live = up | down
+        if not live.any():
             break
+        probe = np.where(up, np.minimum(bad + step, cap), np.where(down, np.maximum(good - step, lower), probe))
         reached = power_at(probe) >= target
-        hit = open_ & reached
-        good = np.where(hit, probe, good)
-        miss = open_ & ~reached
-        bad = np.where(miss, probe, bad)
-        at_cap = miss & (probe >= cap)
-        open_ = miss & ~at_cap
-        probe = np.where(open_, np.minimum(probe * 2, cap), probe)
-    found = bad < cap
-    for _ in range(int(np.ceil(np.log2(max(cap, 2)))) + 2):
+        good = np.where(live & reached, np.minimum(good, probe), good)
+        bad = np.where(live & ~reached, np.maximum(bad, probe), bad)
+        up = up & ~reached & (probe < cap)
+        down = down & reached & (probe > lower)
+        step = step * 2
+    found = good <= cap
+    for _ in range(steps):
         gap = found & (good - bad > 1)
         if not gap.any():
             break
-        mid = np.where(gap, (good + bad) // 2, good)
+        # rows without a gap repeat an in-range size, so a cached power_at does no work
+        mid = np.where(gap, (good + bad) // 2, np.minimum(good, cap))
         reached = power_at(mid) >= target
         good = np.where(gap & reached, mid, good)
         bad = np.where(gap & ~reached, mid, bad)
-    return good, found
+    return np.where(found, good, cap), found
 
 
 def noncentrality_for_power(

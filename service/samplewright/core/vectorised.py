@@ -1,0 +1,305 @@
+"""Rows of designs evaluated together: the array form every planning answer goes through.
+
+A ``Rows`` holds designs of one class with one number of independently sized groups k,
+row i with its own parameters; its methods take arrays with one entry (or one row of k
+sizes) per design and answer every row with array numpy/scipy calls. ``planning`` asks
+its three questions of ``Rows``, and a single question is a ``Rows`` of one, so an answer
+given alone and the same question inside a batch of ten thousand come from the same code,
+element by element.
+
+How the rows are evaluated depends on what the design class offers (checked once per
+``Rows``):
+
+* a *stackable* class (registered with ``stackable``, or with ``row_stackable = True``)
+  is a dataclass whose ``test_at``/``evaluate`` broadcast over parameters carrying a
+  leading row axis: float fields become arrays of shape (rows,), array fields arrays of
+  shape (rows, …), and one call answers every row;
+* any other ``FTestDesign`` with the default ``evaluate`` has its ``test_at`` called once
+  per distinct design (for all the rows that share it), and the F power of every row then
+  comes from one vectorised call;
+* a class with its own exact power function has its ``evaluate`` called once per distinct
+  (design, α), for all the rows that share them.
+
+Rows are independent: no value of one row depends on another, which is what lets the
+lockstep searches of ``solve.py`` answer many questions as if each were asked alone.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from collections.abc import Sequence
+
+import numpy as np
+
+from .designs.base import _RATIO_SLACK, Evaluation, FTest, FTestDesign
+from .designs.one_way import OneWayAnova
+from .distributions import f_test_power
+
+_STACKABLE: set[type] = set()
+_EVALUATION_FIELDS = ("power", "df1", "df2", "noncentrality", "critical_value")
+
+
+def stackable(cls: type) -> type:
+    """Register a dataclass design whose test_at and evaluate broadcast over stacked parameters.
+
+    The promise: for designs d_1..d_n of the class with equal non-float fields, the object
+    whose float fields are the arrays [d_1.x, …, d_n.x] (and array fields stacked along a
+    new first axis) evaluates row i of a sizes array exactly as d_i would.
+    """
+    _STACKABLE.add(cls)
+    return cls
+
+
+# The one-way layout's λ = Σ n_i(μ_i − μ̄_w)²/σ² and λ = N f² broadcast over stacked
+# means (rows, k), sd (rows,) and f (rows,); its evaluate is FTestDesign's.
+stackable(OneWayAnova)
+
+
+def _is_stackable(cls: type) -> bool:
+    return dataclasses.is_dataclass(cls) and (cls in _STACKABLE or getattr(cls, "row_stackable", False) is True)
+
+
+_FIELD_NAMES: dict[type, tuple[str, ...]] = {}
+
+
+def stack_signature(design) -> tuple | None:
+    """What must be equal for two designs to share a stack (None: never stacked).
+
+    None-valued fields, array shapes, and every non-float value (counts, labels) are part
+    of the signature; float values and array contents are what the stack carries per row.
+    """
+    cls = type(design)
+    if not _is_stackable(cls):
+        return None
+    names = _FIELD_NAMES.get(cls)
+    if names is None:
+        names = _FIELD_NAMES[cls] = tuple(f.name for f in dataclasses.fields(cls))
+    parts = []
+    for name in names:
+        value = getattr(design, name)
+        if value is None:
+            parts.append((name, None))
+        elif isinstance(value, np.ndarray):
+            parts.append((name, "array", value.shape, value.dtype.kind))
+        elif isinstance(value, float):
+            parts.append((name, "float"))
+        elif isinstance(value, bool | int | str):
+            parts.append((name, "value", value))
+        else:
+            return None
+    return tuple(parts)
+
+
+def rows_key(design) -> tuple:
+    """Designs with equal keys can be answered as one ``Rows``."""
+    signature = stack_signature(design)
+    return (type(design), int(design.groups), signature if signature is not None else "each")
+
+
+def sizes_from_rows(m, ratios: np.ndarray) -> np.ndarray:
+    """Group sizes n_ij = ceil(m_i · r_ij) for one smallest-group size m_i per row.
+
+    The row form of ``designs.base.sizes_from_smallest`` (the same operations in the same
+    order, so the same integers): ``ratios`` has shape (rows, k), divided by each row's
+    minimum.
+    """
+    m = np.asarray(m, dtype=np.int64).reshape(-1, 1)
+    return np.ceil(m * ratios * (1 - _RATIO_SLACK)).astype(np.int64)
+
+
+class _Tests:
+    """Stands in for a design whose test statistics are already known (see Rows.evaluate)."""
+
+    def __init__(self, test: FTest) -> None:
+        self._test = test
+
+    def test_at(self, sizes):
+        return self._test
+
+
+def _concat(parts: list[np.ndarray], order: np.ndarray | None) -> np.ndarray:
+    out = np.concatenate([np.atleast_1d(np.asarray(p)) for p in parts])
+    if order is None:
+        return out
+    back = np.empty_like(out)
+    back[order] = out
+    return back
+
+
+class Rows:
+    """Designs of one class and one group count, answered together (row i is design i)."""
+
+    def __init__(self, designs: Sequence, *, _stack=None) -> None:
+        self.designs = list(designs)
+        if not self.designs:
+            raise ValueError("Rows needs at least one design")
+        first = self.designs[0]
+        cls = type(first)
+        self.cls = cls
+        self.groups = int(first.groups)
+        self.count = len(self.designs)
+        self.ratios = np.array([d.ratios for d in self.designs], dtype=float).reshape(self.count, self.groups)
+        ftest = isinstance(first, FTestDesign)
+        self._has_test_at = ftest and cls.test_at is not FTestDesign.test_at
+        self._default_evaluate = self._has_test_at and cls.evaluate is FTestDesign.evaluate
+        self._default_lam = self._default_evaluate and (
+            cls.power_at_noncentrality is FTestDesign.power_at_noncentrality
+        )
+        self._default_unit = self._has_test_at and cls.smallest_unit is FTestDesign.smallest_unit
+        if _stack is not None:
+            self._stacked, self._stacked_names = _stack
+        else:
+            self._stacked, self._stacked_names = self._build_stack()
+        self._shared: list[tuple[object, np.ndarray]] | None = None
+
+    # -- construction ----------------------------------------------------------------
+
+    def _build_stack(self):
+        signature = stack_signature(self.designs[0])
+        if signature is None:
+            return None, ()
+        checked = {id(self.designs[0])}
+        for d in self.designs[1:]:
+            if id(d) not in checked:  # designs repeat when items share one
+                if stack_signature(d) != signature:
+                    return None, ()
+                checked.add(id(d))
+        first = self.designs[0]
+        obj = object.__new__(self.cls)
+        names = []
+        for part in signature:
+            name, kind = part[0], part[1]
+            if kind == "array":
+                value = np.stack([getattr(d, name) for d in self.designs])
+                names.append(name)
+            elif kind == "float":
+                value = np.array([getattr(d, name) for d in self.designs], dtype=float)
+                names.append(name)
+            else:
+                value = getattr(first, name)
+            object.__setattr__(obj, name, value)
+        return obj, tuple(names)
+
+    def take(self, index) -> Rows:
+        """The rows at ``index`` (an integer array), as a Rows of their own."""
+        index = np.asarray(index, dtype=np.int64)
+        stack = None
+        if self._stacked is not None:
+            obj = object.__new__(self.cls)
+            obj.__dict__.update(self._stacked.__dict__)
+            for name in self._stacked_names:
+                object.__setattr__(obj, name, getattr(self._stacked, name)[index])
+            stack = (obj, self._stacked_names)
+        else:
+            stack = (None, ())
+        return Rows([self.designs[i] for i in index.tolist()], _stack=stack)
+
+    def _by_design(self) -> list[tuple[object, np.ndarray]]:
+        """Distinct designs (by identity) with the rows that use them, in first-seen order."""
+        if self._shared is None:
+            seen: dict[int, tuple[object, list[int]]] = {}
+            for i, d in enumerate(self.designs):
+                entry = seen.get(id(d))
+                if entry is None:
+                    seen[id(d)] = (d, [i])
+                else:
+                    entry[1].append(i)
+            self._shared = [(d, np.asarray(ix, dtype=np.int64)) for d, ix in seen.values()]
+        return self._shared
+
+    # -- what the planning engine asks ---------------------------------------------------
+
+    @property
+    def vectorised(self) -> bool:
+        """True when one array call answers every row (stacked or F-test default)."""
+        return self._stacked is not None or self._default_evaluate
+
+    def tests(self, sizes: np.ndarray) -> FTest:
+        """df1, df2 and λ of every row's F test (designs with a ``test_at``)."""
+        if self._stacked is not None:
+            return self._stacked.test_at(sizes)
+        shared = self._by_design()
+        if len(shared) == 1:
+            return shared[0][0].test_at(sizes)
+        parts = [(d.test_at(sizes[ix]), ix) for d, ix in shared]
+        order = np.concatenate([ix for _, ix in parts])
+        return FTest(
+            df1=_concat([t.df1 for t, _ in parts], order),
+            df2=_concat([t.df2 for t, _ in parts], order),
+            noncentrality=_concat([t.noncentrality for t, _ in parts], order),
+        )
+
+    def evaluate(self, sizes: np.ndarray, alpha: np.ndarray) -> Evaluation:
+        """Power of every row's test at its sizes (rows, k) and its α (rows,)."""
+        alpha = np.asarray(alpha, dtype=float)
+        if self._stacked is not None:
+            return self._stacked.evaluate(sizes, alpha)
+        if self._default_evaluate:
+            return FTestDesign.evaluate(_Tests(self.tests(sizes)), sizes, alpha)
+        groups: dict[tuple[int, float], tuple[object, list[int]]] = {}
+        alphas = alpha.tolist()
+        for d, ix in self._by_design():
+            for i in ix.tolist():
+                key = (id(d), alphas[i])
+                entry = groups.get(key)
+                if entry is None:
+                    groups[key] = (d, [i])
+                else:
+                    entry[1].append(i)
+        parts = []
+        for (_, a), (d, ix) in groups.items():
+            ix = np.asarray(ix, dtype=np.int64)
+            parts.append((d.evaluate(sizes[ix], a), ix))
+        order = np.concatenate([ix for _, ix in parts])
+        return Evaluation(*(_concat([getattr(e, f) for e, _ in parts], order) for f in _EVALUATION_FIELDS))
+
+    def noncentrality(self, sizes: np.ndarray, alpha: np.ndarray) -> np.ndarray:
+        """Each row's effect parameter at its sizes (λ for F tests), without the power."""
+        if self._default_evaluate:
+            return np.asarray(self.tests(sizes).noncentrality, dtype=float)
+        return self.evaluate(sizes, alpha).noncentrality
+
+    def error_df(self, sizes: np.ndarray) -> np.ndarray:
+        """Each row's error degrees of freedom (df2) at its sizes."""
+        if self._default_evaluate:
+            return np.asarray(self.tests(sizes).df2, dtype=float)
+        return self.evaluate(sizes, np.full(self.count, 0.05)).df2
+
+    def smallest_unit(self) -> np.ndarray:
+        """Each row's smallest size of the smallest group that leaves error df ≥ 1."""
+        if self._default_unit:
+            out = np.full(self.count, 4, dtype=np.int64)
+            undecided = np.ones(self.count, dtype=bool)
+            for m in (1, 2, 3):  # FTestDesign.smallest_unit, row by row
+                df2 = np.asarray(self.tests(sizes_from_rows(np.full(self.count, m), self.ratios)).df2)
+                hit = undecided & (df2 >= 1)
+                out[hit] = m
+                undecided &= ~hit
+                if not undecided.any():
+                    break
+            return out
+        units = {id(d): d.smallest_unit() for d, _ in self._by_design()}
+        return np.array([units[id(d)] for d in self.designs], dtype=np.int64)
+
+    def power_at_noncentrality(self, lam: np.ndarray, sizes: np.ndarray, alpha: np.ndarray,
+                               evaluation: Evaluation, mask: np.ndarray) -> np.ndarray:
+        """Power of the rows in ``mask`` at effect parameters ``lam`` (others are 0).
+
+        ``evaluation`` is ``evaluate(sizes, alpha)``: for F tests its df and critical
+        values are those the power at another λ needs.
+        """
+        out = np.zeros(self.count)
+        idx = np.flatnonzero(mask)
+        if idx.size == 0:
+            return out
+        if self._default_lam:
+            out[idx] = f_test_power(
+                alpha[idx], evaluation.df1[idx], evaluation.df2[idx], lam[idx],
+                critical=evaluation.critical_value[idx],
+            )
+            return out
+        alphas = alpha.tolist()
+        for i in idx.tolist():
+            d = self.designs[i]
+            out[i] = np.atleast_1d(d.power_at_noncentrality(lam[i:i + 1], sizes[i], alphas[i]))[0]
+        return out
