@@ -7,7 +7,7 @@ HOST   ?= 127.0.0.1
 PORT   ?= 8000
 STAMP  := $(VENV)/.stamp-install
 
-.PHONY: install serve test lint spec spec-check clean load
+.PHONY: install serve test lint spec spec-check clean load bench
 
 $(STAMP): pyproject.toml
 	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
@@ -39,6 +39,10 @@ LOAD_DURATION    ?= 60
 LOAD_CONNECTIONS ?= 32
 load: $(STAMP)
 	$(BIN)/python tests/load/run.py --duration $(LOAD_DURATION) --connections $(LOAD_CONNECTIONS) --json $(VENV)/load-report.json
+
+# Side-by-side ratios (not part of make test): prints a table, writes bench-results/bench.json.
+bench: $(STAMP)
+	$(BIN)/python tests/benchmarks/run.py
 
 clean:
 	rm -rf $(VENV) build dist service/*.egg-info .pytest_cache .hypothesis .ruff_cache

@@ -19,7 +19,11 @@ from .logs import configure_logging
 class StrictJSONProvider(JSONProvider):
     """JSON out with ``allow_nan=False``: a NaN can never reach a client as invalid JSON."""
 
+    _encoder = json.JSONEncoder(allow_nan=False, separators=(",", ":"))
+
     def dumps(self, obj, **kwargs):
+        if not kwargs:  # every response body: one encoder, built once
+            return self._encoder.encode(obj)
         return json.dumps(obj, allow_nan=False, separators=(",", ":"), **kwargs)
 
     def loads(self, s, **kwargs):
@@ -46,13 +50,15 @@ def create_app(settings: Settings | None = None) -> Flask:
         ok = 0 < len(supplied) <= 128 and supplied.isascii() and supplied.isprintable()
         g.request_id = supplied if ok else uuid.uuid4().hex
 
-    @app.before_request
     def _cors_and_auth():
         preflight = security.preflight_response(settings)
         if preflight is not None:
             return preflight
         security.require_key(settings, keys)
         return None
+
+    if settings.cors_origins or keys:  # otherwise it can neither answer nor refuse anything
+        app.before_request(_cors_and_auth)
 
     @app.after_request
     def _finish(response):

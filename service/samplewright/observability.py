@@ -12,11 +12,9 @@ process's own. Structured logs are in ``logs.py``.
 
 from __future__ import annotations
 
-import contextlib
 import glob
 import os
 import time
-from collections.abc import Iterator
 
 from prometheus_client import REGISTRY, CollectorRegistry, Counter, Histogram, generate_latest
 from prometheus_client.exposition import CONTENT_TYPE_PLAIN_0_0_4
@@ -62,11 +60,23 @@ def method_label(method: str) -> str:
     return method if method in _METHODS else "OTHER"
 
 
+#: The labelled children by (rule, method, status) and by operation: ``labels()`` takes a
+#: lock and builds its key on every call; the children are the same objects each time.
+#: Bounded: route templates, methods (OTHER beyond the usual ones) and statuses are few.
+_REQUEST_CHILDREN: dict[tuple, tuple] = {}
+_COMPUTATION_CHILDREN: dict[str, object] = {}
+
+
 def observe_request(rule: str | None, method: str, status: int, seconds: float) -> None:
     """Count one answered request and its latency."""
-    labels = (route_label(rule), method_label(method), str(status))
-    REQUESTS.labels(*labels).inc()
-    LATENCY.labels(*labels).observe(seconds)
+    children = _REQUEST_CHILDREN.get((rule, method, status))
+    if children is None:
+        labels = (route_label(rule), method_label(method), str(status))
+        children = (REQUESTS.labels(*labels), LATENCY.labels(*labels))
+        if method in _METHODS:  # other methods are one label value but unbounded keys
+            _REQUEST_CHILDREN[(rule, method, status)] = children
+    children[0].inc()
+    children[1].observe(seconds)
 
 
 def observe_problem(problem_type: str, status: int) -> None:
@@ -79,14 +89,27 @@ def observe_batch(route: str, items: int) -> None:
     BATCH_ITEMS.labels(route).observe(items)
 
 
-@contextlib.contextmanager
-def computation(operation: str) -> Iterator[None]:
-    """Time the block as one run of ``operation`` (recorded whether it returns or raises)."""
-    start = time.perf_counter()
-    try:
-        yield
-    finally:
-        COMPUTATION.labels(operation).observe(time.perf_counter() - start)
+class computation:  # noqa: N801 - used as a function: ``with computation("power"):``
+    """Time the block as one run of ``operation`` (recorded whether it returns or raises).
+
+    A plain context manager (a generator-based one costs a generator and its frame per use).
+    """
+
+    __slots__ = ("_child", "_start")
+
+    def __init__(self, operation: str) -> None:
+        child = _COMPUTATION_CHILDREN.get(operation)
+        if child is None:
+            child = COMPUTATION.labels(operation)
+            if len(_COMPUTATION_CHILDREN) < 256:
+                _COMPUTATION_CHILDREN[operation] = child
+        self._child = child
+
+    def __enter__(self) -> None:
+        self._start = time.perf_counter()
+
+    def __exit__(self, *exc_info) -> None:
+        self._child.observe(time.perf_counter() - self._start)
 
 
 def render_metrics() -> tuple[bytes, str]:

@@ -305,6 +305,8 @@ def test_an_unexpected_failure_fails_only_its_item(client, monkeypatch, caplog):
         return original(design, sizes)
 
     monkeypatch.setattr(adapter, "effect_report", fragile)
+    # Take the item-by-item report path (the adapter's many-rows hook would bypass ``fragile``).
+    monkeypatch.setattr(adapter, "effect_reports", None)
     design = {"type": "one_way_anova", "cohens_f": 0.25, "groups": 3}
     items = [{"id": f"n{n}", "operation": "power", "request": {"design": design, "n_per_group": n}}
              for n in (11, 12, 13, 14)]

@@ -16,7 +16,7 @@ from pathlib import Path
 HERE = Path(__file__).resolve().parent
 sys.path.insert(0, str(HERE))
 
-MODULES = ("bench_core", "bench_batch", "bench_http")
+MODULES = ("bench_core", "bench_batch", "bench_http", "bench_table")
 
 
 def main() -> int:

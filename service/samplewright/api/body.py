@@ -58,24 +58,28 @@ def _check_nesting(data: Any) -> None:
 
 
 def _no_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
-    out: dict[str, Any] = {}
-    for key, value in pairs:
-        if key in out:
+    out = dict(pairs)
+    if len(out) == len(pairs):
+        return out
+    seen: set[str] = set()
+    for key, _value in pairs:  # name the first repeated key
+        if key in seen:
             raise ValueError(f"duplicate key {key[:60]!r}")
-        out[key] = value
-    return out
+        seen.add(key)
+    raise AssertionError("unreachable")  # pragma: no cover
+
+
+#: Built once (json.loads with hooks builds a decoder and its scanner on every call).
+_STRICT = json.JSONDecoder(parse_constant=_reject_constant, parse_float=_float, parse_int=_bounded_int,
+                           object_pairs_hook=_no_duplicates)
 
 
 def parse_json_text(text: str) -> Any:
     """Strict JSON parse; raises ValueError with a reason a client can act on."""
     try:
-        data = json.loads(
-            text,
-            parse_constant=_reject_constant,
-            parse_float=_float,
-            parse_int=_bounded_int,
-            object_pairs_hook=_no_duplicates,
-        )
+        if text.startswith("\ufeff"):  # as json.loads
+            raise json.JSONDecodeError("Unexpected UTF-8 BOM (decode using utf-8-sig)", text, 0)
+        data = _STRICT.decode(text)
     except RecursionError:
         raise ValueError(f"nesting is too deep (at most {MAX_NESTING} levels of arrays and objects)") from None
     if isinstance(data, dict | list):

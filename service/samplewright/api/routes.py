@@ -257,3 +257,22 @@ def power_grid():
 def protocol_report():
     """A sample-size justification to paste into a protocol (Markdown, text or HTML)."""
     return _compute(report.report)
+
+
+# -- columns of questions: the fast path for large sweeps (logic in table.py) --------------------
+
+from . import table  # noqa: E402  (appended block; table imports schemas, the one-way adapter and the core)
+
+
+@endpoint("/v1/table", "POST", "One operation over many rows of one design type, every field a column.",
+          table.TableRequestSchema, table.TableResponseSchema,
+          problems=(("413", "Body over the batch limit, or more rows than the table limit."),))
+def table_questions():
+    """One operation over many rows of one design type, every field a column."""
+    settings = current_app.config["SETTINGS"]
+    with batch.collector_paused():
+        body = table.read_table_body(settings.max_batch_bytes)
+        with computation("table"):
+            result = table.run_table(body)
+        text = table.table_json(result)
+    return current_app.response_class(text, mimetype="application/json")

@@ -64,6 +64,31 @@ def _as_float_arrays(*values):
     return [np.asarray(v, dtype=float) for v in values]
 
 
+def _float_arrays_1d(*values):
+    """The values as float arrays of one common shape, at least 1-d, and whether all were scalars.
+
+    Equal shapes (the usual case: one request's one-element rows, or a batch's columns) skip
+    ``np.broadcast_arrays``, which costs more than the rest of a one-element evaluation.
+    """
+    arrays = [np.asarray(v, dtype=float) for v in values]
+    shape = arrays[0].shape
+    if all(a.shape == shape for a in arrays):
+        if shape == ():
+            return [a.reshape(1) for a in arrays], True
+        return arrays, False
+    return np.broadcast_arrays(*(np.atleast_1d(a) for a in arrays)), False
+
+
+def _any(mask: np.ndarray) -> bool:
+    """``mask.any()``; for one element, read it (the reduction costs twenty times as much)."""
+    return bool(mask[0]) if mask.size == 1 else bool(mask.any())
+
+
+def _all(mask: np.ndarray) -> bool:
+    """``mask.all()``; for one element, read it."""
+    return bool(mask[0]) if mask.size == 1 else bool(mask.all())
+
+
 def _unwrap(out: np.ndarray, scalar: bool):
     return out[0] if scalar else out
 
@@ -75,18 +100,16 @@ def central_f_sf(x, df1, df2):
     with the incomplete-beta argument chosen so that it never rounds near 1
     (Abramowitz & Stegun 26.6.2). Only the branch each element needs is evaluated.
     """
-    x, df1, df2 = _as_float_arrays(x, df1, df2)
-    scalar = x.ndim == 0 and df1.ndim == 0 and df2.ndim == 0
-    x, df1, df2 = np.broadcast_arrays(np.atleast_1d(x), np.atleast_1d(df1), np.atleast_1d(df2))
+    (x, df1, df2), scalar = _float_arrays_1d(x, df1, df2)
     d1x = df1 * x
     denom = d1x + df2
     small_z = d1x < df2  # z < 1/2
-    out = np.empty(x.shape)
-    if small_z.all():
+    if _all(small_z):
         out = special.betaincc(df1 / 2, df2 / 2, d1x / denom)
-    elif not small_z.any():
+    elif not _any(small_z):
         out = special.betainc(df2 / 2, df1 / 2, df2 / denom)
     else:
+        out = np.empty(x.shape)
         m = small_z
         out[m] = special.betaincc(df1[m] / 2, df2[m] / 2, d1x[m] / denom[m])
         m = ~small_z
@@ -125,22 +148,46 @@ def f_critical_value(alpha, df1, df2):
     probability is then not within 8e-15 of α, up to three Newton steps on
     log P(F > x) − log α, using the density, polish it.
     """
-    alpha, df1, df2 = _as_float_arrays(alpha, df1, df2)
-    scalar = alpha.ndim == 0 and df1.ndim == 0 and df2.ndim == 0
-    alpha, df1, df2 = np.broadcast_arrays(np.atleast_1d(alpha), np.atleast_1d(df1), np.atleast_1d(df2))
+    (alpha, df1, df2), scalar = _float_arrays_1d(alpha, df1, df2)
+    if alpha.size == 1:
+        # One question at a time (a single request, or a search step): the same few
+        # (α, df1, df2) recur, so the value is remembered (a fresh array each time).
+        key = (float(alpha[0]), float(df1[0]), float(df2[0]))
+        hit = _CRITICAL_CACHE.get(key)
+        if hit is None:
+            hit = float(_f_critical_value_arrays(alpha, df1, df2)[0])
+            if len(_CRITICAL_CACHE) >= _CRITICAL_CACHE_SIZE:
+                _CRITICAL_CACHE.clear()
+            _CRITICAL_CACHE[key] = hit
+        return _unwrap(np.array([hit]), scalar)
+    return _unwrap(_f_critical_value_arrays(alpha, df1, df2), scalar)
+
+
+#: One-element critical values by (α, df1, df2); emptied when full (bounded memory).
+_CRITICAL_CACHE: dict[tuple[float, float, float], float] = {}
+_CRITICAL_CACHE_SIZE = 4096
+
+
+def _f_critical_value_arrays(alpha: np.ndarray, df1: np.ndarray, df2: np.ndarray) -> np.ndarray:
+    """f_critical_value on 1-d float arrays of one shape."""
     with np.errstate(all="ignore"):
         y = special.betaincinv(df2 / 2, df1 / 2, alpha)
-        x = df2 * (1 - y) / (df1 * y)
         hi = y > 0.5
-        if hi.any():
-            z = special.betainccinv(df1[hi] / 2, df2[hi] / 2, alpha[hi])
-            x[hi] = df2[hi] * z / (df1[hi] * (1 - z))
-        todo = (alpha < _TRUSTED_ALPHA) | (df2 > _TRUSTED_DF2)
-        for _ in range(3 if todo.any() else 0):
+        if _all(hi):  # the usual case (α < ½): no element needs the mask
+            z = special.betainccinv(df1 / 2, df2 / 2, alpha)
+            x = df2 * z / (df1 * (1 - z))
+        else:
+            x = df2 * (1 - y) / (df1 * y)
+            if _any(hi):
+                z = special.betainccinv(df1[hi] / 2, df2[hi] / 2, alpha[hi])
+                x[hi] = df2[hi] * z / (df1[hi] * (1 - z))
+        todo = alpha < _TRUSTED_ALPHA
+        todo |= df2 > _TRUSTED_DF2
+        for _ in range(3 if _any(todo) else 0):
             sf = central_f_sf(x[todo], df1[todo], df2[todo])
             err = sf / alpha[todo] - 1
             still = np.abs(err) > _CRIT_RTOL
-            if not still.any():
+            if not _any(still):
                 break
             idx = np.flatnonzero(todo)[still]
             sf = sf[still]
@@ -150,7 +197,7 @@ def f_critical_value(alpha, df1, df2):
             x[idx] = np.where(np.isfinite(step), x[idx] + step, x[idx])
             todo = np.zeros(x.shape, dtype=bool)
             todo[idx] = True
-    return _unwrap(x, scalar)
+    return x
 
 
 def _ncf_sf_series(x: float, df1: float, df2: float, nc: float) -> float:
@@ -191,20 +238,23 @@ def _ncf_sf_large_nc(x, df1, df2, nc):
 
 def noncentral_f_sf(x, df1, df2, nc):
     """Upper tail P(F'(df1, df2, λ) > x) of the noncentral F; λ = 0 gives the central F."""
-    x, df1, df2, nc = _as_float_arrays(x, df1, df2, nc)
-    scalar = x.ndim == 0 and df1.ndim == 0 and df2.ndim == 0 and nc.ndim == 0
-    x, df1, df2, nc = np.broadcast_arrays(*(np.atleast_1d(v) for v in (x, df1, df2, nc)))
+    (x, df1, df2, nc), scalar = _float_arrays_1d(x, df1, df2, nc)
     big = nc > LARGE_NONCENTRALITY
     central = nc <= TINY_NONCENTRALITY
+    # The masks are only applied where some element needs them (for one-element rows the
+    # boolean indexing would cost more than the evaluation itself).
+    guarded = _any(big | central)
     with np.errstate(all="ignore"):
         # Boost never sees a tiny or a very large λ: it warns, errs or returns NaN there.
-        out = _boost_ncf_sf(x, df1, df2, np.where(big | central, 1.0, nc))
-        if central.any():
+        out = _boost_ncf_sf(x, df1, df2, np.where(big | central, 1.0, nc) if guarded else nc)
+        if guarded and _any(central):
             out[central] = central_f_sf(x[central], df1[central], df2[central])
-    series = (df2 > LARGE_DF2) & ~central & (nc <= SERIES_MAX_NONCENTRALITY)
-    for i in np.flatnonzero(series):
-        out[i] = _ncf_sf_series(x[i], df1[i], df2[i], nc[i])
-    if big.any():
+    large_df2 = df2 > LARGE_DF2
+    if _any(large_df2):
+        series = large_df2 & ~central & (nc <= SERIES_MAX_NONCENTRALITY)
+        for i in np.flatnonzero(series):
+            out[i] = _ncf_sf_series(x[i], df1[i], df2[i], nc[i])
+    if guarded and _any(big):
         out[big] = _ncf_sf_large_nc(x[big], df1[big], df2[big], nc[big])
     return _unwrap(out, scalar)
 
@@ -217,18 +267,16 @@ def f_test_power(alpha, df1, df2, nc, critical=None):
     """
     if critical is None:
         critical = f_critical_value(alpha, df1, df2)
-    alpha_a, df1, df2, nc, critical = _as_float_arrays(alpha, df1, df2, nc, critical)
-    scalar = all(v.ndim == 0 for v in (alpha_a, df1, df2, nc, critical))
-    alpha_a, df1, df2, nc, critical = np.broadcast_arrays(
-        *(np.atleast_1d(v) for v in (alpha_a, df1, df2, nc, critical))
-    )
-    power = np.array(alpha_a, dtype=float, copy=True)
+    (alpha_a, df1, df2, nc, critical), scalar = _float_arrays_1d(alpha, df1, df2, nc, critical)
     live = nc > 0
-    if live.all():
+    if _all(live):
         power = noncentral_f_sf(critical, df1, df2, nc)
-    elif live.any():
-        power[live] = noncentral_f_sf(critical[live], df1[live], df2[live], nc[live])
-    np.clip(power, alpha_a, 1.0, out=power)
+    else:
+        power = np.array(alpha_a, dtype=float, copy=True)
+        if _any(live):
+            power[live] = noncentral_f_sf(critical[live], df1[live], df2[live], nc[live])
+    # clip(power, α, 1), as max then min (np.clip's own dispatch costs more than both)
+    np.minimum(np.maximum(power, alpha_a, out=power), 1.0, out=power)
     return _unwrap(power, scalar)
 
 

@@ -393,9 +393,13 @@ def detectable_rows(rows: Rows, *, sizes: np.ndarray, alpha, target_power) -> tu
             return part.power_at_noncentrality(values, part_sizes, part_alpha, ev, mask)
 
         start = np.maximum(1.0, np.asarray(ev.df1, dtype=float))
+        step = None
         if getattr(part, "_default_evaluate", False):
+            # λ∞ sits just below the root (finite error df need more λ); the gap shrinks
+            # like 1/df2, so a first step of a few λ∞/df2 usually brackets it at once.
             start = _chi_square_noncentrality(ev.df1, part_alpha, target[index], start)
-        found_lam, found = noncentrality_for_power(power_of, target=target[index], start=start)
+            step = start * 4.0 / np.maximum(np.asarray(ev.df2, dtype=float), 1.0)
+        found_lam, found = noncentrality_for_power(power_of, target=target[index], start=start, step=step)
         for j in np.flatnonzero(~found).tolist():
             i = int(index[j])
             errors[i] = NoSolution(

@@ -79,6 +79,7 @@ def noncentrality_for_power(
     *,
     target: np.ndarray,
     start: np.ndarray,
+    step: np.ndarray | None = None,
     rtol: float = 1e-13,
     max_iterations: int = 200,
 ) -> tuple[np.ndarray, np.ndarray]:
@@ -88,8 +89,11 @@ def noncentrality_for_power(
     ``mask`` says which entries are needed (others may be anything finite). Power must
     increase with λ from its value at 0 (α) towards 1.
 
-    The bracket [0, hi] is found by doubling ``start`` until the power reaches the
-    target (at most log2(MAX_NONCENTRALITY) steps); the root is then found by the
+    The bracket is found by probing ``start``, then ``lo + step`` with the step doubling
+    each time (``step`` defaults to ``start``, i.e. plain doubling), ``lo`` being the
+    largest probe known to fall short (0 at first), until the power reaches the target
+    (at most log2(MAX_NONCENTRALITY) steps). A ``start`` just below the root with a
+    small ``step`` brackets it tightly in two probes. The root is then found by the
     Illinois variant of regula falsi (Dowell & Jarratt, BIT 11, 1971), which keeps a
     bracket and converges superlinearly, stopping at a relative width of ``rtol``.
 
@@ -97,6 +101,7 @@ def noncentrality_for_power(
     """
     target = np.asarray(target, dtype=float)
     hi = np.maximum(np.asarray(start, dtype=float), 1e-6)
+    grow = hi.copy() if step is None else np.maximum(np.asarray(step, dtype=float), 1e-6)
     lo = np.zeros_like(hi)
     open_ = np.ones(hi.shape, dtype=bool)
     f_hi = np.empty_like(hi)
@@ -107,7 +112,8 @@ def noncentrality_for_power(
         short = open_ & ~reached
         lo = np.where(short, hi, lo)
         open_ = short & (hi < MAX_NONCENTRALITY)
-        hi = np.where(open_, np.minimum(hi * 2, MAX_NONCENTRALITY), hi)
+        hi = np.where(open_, np.minimum(lo + grow, MAX_NONCENTRALITY), hi)
+        grow = grow * 2
         if not open_.any():
             break
     found = f_hi >= 0

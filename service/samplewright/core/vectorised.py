@@ -117,6 +117,51 @@ class _Tests:
         return self._test
 
 
+#: Fewest rows for which the distinct (α, df1, df2) of an F test are looked for first.
+_DISTINCT_FROM = 1024
+
+
+def _distinct_rows(*columns: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None:
+    """(first row of each distinct tuple, each row's tuple number), or None when most are distinct."""
+    count = columns[0].size
+    order = np.lexsort(columns[::-1])
+    change = np.zeros(count, dtype=bool)
+    change[0] = True
+    for column in columns:
+        ordered = column[order]
+        change[1:] |= ordered[1:] != ordered[:-1]
+    firsts = order[change]
+    if firsts.size > count // 2:
+        return None
+    inverse = np.empty(count, dtype=np.intp)
+    inverse[order] = np.cumsum(change) - 1
+    return firsts, inverse
+
+
+def _f_evaluate(test: FTest, alpha: np.ndarray) -> Evaluation:
+    """``FTestDesign.evaluate`` for tests already known, each critical value computed once.
+
+    The critical value depends on (α, df1, df2) only, and a sweep repeats a few of them
+    over many rows: each distinct one is computed once and copied to its rows. The
+    computation is elementwise, so every row gets the value it would get alone.
+    """
+    from .distributions import f_critical_value
+
+    df1, df2, lam = test.df1, test.df2, test.noncentrality
+    a, d1, d2 = (np.asarray(v, dtype=float) for v in (alpha, df1, df2))
+    crit = None
+    if a.ndim == d1.ndim == d2.ndim == 1 and a.size == d1.size == d2.size >= _DISTINCT_FROM:
+        if np.isfinite(a).all() and np.isfinite(d1).all() and np.isfinite(d2).all():
+            found = _distinct_rows(a, d1, d2)
+            if found is not None:
+                firsts, inverse = found
+                crit = np.atleast_1d(f_critical_value(a[firsts], d1[firsts], d2[firsts]))[inverse]
+    if crit is None:
+        crit = np.atleast_1d(f_critical_value(alpha, df1, df2))
+    power = np.atleast_1d(f_test_power(alpha, df1, df2, lam, critical=crit))
+    return Evaluation(power, df1, df2, lam, crit)
+
+
 def _concat(parts: list[np.ndarray], order: np.ndarray | None) -> np.ndarray:
     out = np.concatenate([np.atleast_1d(np.asarray(p)) for p in parts])
     if order is None:
@@ -126,19 +171,66 @@ def _concat(parts: list[np.ndarray], order: np.ndarray | None) -> np.ndarray:
     return back
 
 
+class _ColumnDesigns(Sequence):
+    """The designs of a Rows built by ``Rows.from_columns``, each made only when asked for.
+
+    Row i is the design whose stacked fields hold row i's values (floats as Python floats,
+    array fields as row i of their array); a design once made is kept, so asking twice
+    gives the same object (the engine groups rows by design identity).
+    """
+
+    def __init__(self, stacked, names: tuple[str, ...], count: int) -> None:
+        self.stacked = stacked
+        self.names = names
+        self.count = count
+        self._made: dict[int, object] = {}
+
+    def __len__(self) -> int:
+        return self.count
+
+    def __getitem__(self, i):
+        if isinstance(i, slice):
+            return [self[j] for j in range(*i.indices(self.count))]
+        i = int(i)
+        if i < 0:
+            i += self.count
+        if not 0 <= i < self.count:
+            raise IndexError(i)
+        made = self._made.get(i)
+        if made is None:
+            made = object.__new__(type(self.stacked))
+            made.__dict__.update(self.stacked.__dict__)
+            for name in self.names:
+                column = getattr(self.stacked, name)
+                value = float(column[i]) if column.ndim == 1 else column[i].copy()
+                object.__setattr__(made, name, value)
+            self._made[i] = made
+        return made
+
+    def __iter__(self):
+        return (self[i] for i in range(self.count))
+
+
 class Rows:
     """Designs of one class and one group count, answered together (row i is design i)."""
 
     def __init__(self, designs: Sequence, *, _stack=None) -> None:
-        self.designs = list(designs)
-        if not self.designs:
-            raise ValueError("Rows needs at least one design")
-        first = self.designs[0]
+        if isinstance(designs, _ColumnDesigns):
+            self.designs = designs
+            first = designs.stacked
+        else:
+            self.designs = list(designs)
+            if not self.designs:
+                raise ValueError("Rows needs at least one design")
+            first = self.designs[0]
         cls = type(first)
         self.cls = cls
         self.groups = int(first.groups)
         self.count = len(self.designs)
-        self.ratios = np.array([d.ratios for d in self.designs], dtype=float).reshape(self.count, self.groups)
+        if isinstance(designs, _ColumnDesigns):
+            self.ratios = np.asarray(first.ratios, dtype=float).reshape(self.count, self.groups)
+        else:
+            self.ratios = np.array([d.ratios for d in self.designs], dtype=float).reshape(self.count, self.groups)
         ftest = isinstance(first, FTestDesign)
         self._has_test_at = ftest and cls.test_at is not FTestDesign.test_at
         self._default_evaluate = self._has_test_at and cls.evaluate is FTestDesign.evaluate
@@ -153,6 +245,44 @@ class Rows:
         self._shared: list[tuple[object, np.ndarray]] | None = None
 
     # -- construction ----------------------------------------------------------------
+
+    @classmethod
+    def from_columns(cls_rows, cls: type, count: int, **values) -> Rows:
+        """A Rows of ``count`` designs of the stackable dataclass ``cls``, given by columns.
+
+        The fast path for large sweeps: no design object is built per row. Each float
+        field is an array of shape (count,) or a float shared by every row; each array
+        field (``ratios``, ``means``) an array of shape (count, …); every other field (the
+        group count, labels) one value for all rows; a field left out takes its dataclass
+        default. The result is the Rows that ``Rows([d_1, …, d_count])`` builds from the
+        designs with row i's values, and evaluates every row identically; a design object
+        is made only if something asks for ``rows.designs[i]``.
+        """
+        if not _is_stackable(cls):
+            raise TypeError(f"{cls.__name__} is not a stackable design")
+        if count < 1:
+            raise ValueError("Rows needs at least one design")
+        obj = object.__new__(cls)
+        names = []
+        for f in dataclasses.fields(cls):
+            if f.name in values:
+                value = values.pop(f.name)
+            elif f.default is not dataclasses.MISSING:
+                value = f.default
+            else:
+                raise TypeError(f"{cls.__name__}.{f.name} is required")
+            if isinstance(value, np.ndarray):
+                if value.ndim == 0 or value.shape[0] != count:
+                    raise ValueError(f"{f.name} needs a leading axis of {count} rows (got shape {value.shape})")
+                value = np.ascontiguousarray(value, dtype=float)
+                names.append(f.name)
+            elif isinstance(value, float):
+                value = np.full(count, value)
+                names.append(f.name)
+            object.__setattr__(obj, f.name, value)
+        if values:
+            raise TypeError(f"{cls.__name__} has no field(s) {', '.join(sorted(values))}")
+        return cls_rows(_ColumnDesigns(obj, tuple(names), count), _stack=(obj, tuple(names)))
 
     def _build_stack(self):
         signature = stack_signature(self.designs[0])
@@ -192,6 +322,8 @@ class Rows:
             stack = (obj, self._stacked_names)
         else:
             stack = (None, ())
+        if isinstance(self.designs, _ColumnDesigns):
+            return Rows(_ColumnDesigns(stack[0], stack[1], index.size), _stack=stack)
         return Rows([self.designs[i] for i in index.tolist()], _stack=stack)
 
     def _by_design(self) -> list[tuple[object, np.ndarray]]:
@@ -232,10 +364,10 @@ class Rows:
     def evaluate(self, sizes: np.ndarray, alpha: np.ndarray) -> Evaluation:
         """Power of every row's test at its sizes (rows, k) and its α (rows,)."""
         alpha = np.asarray(alpha, dtype=float)
+        if self._default_evaluate:
+            return _f_evaluate(self.tests(sizes), alpha)
         if self._stacked is not None:
             return self._stacked.evaluate(sizes, alpha)
-        if self._default_evaluate:
-            return FTestDesign.evaluate(_Tests(self.tests(sizes)), sizes, alpha)
         groups: dict[tuple[int, float], tuple[object, list[int]]] = {}
         alphas = alpha.tolist()
         for d, ix in self._by_design():

@@ -9,6 +9,7 @@ from marshmallow import ValidationError, validates_schema
 
 from ...core.designs.base import is_equal, normalised_allocation
 from ...core.designs.one_way import OneWayAnova, eta_squared_from_f, f_from_eta_squared
+from ...core.vectorised import Rows
 from ..fields import Bounded, BoundedList, StrictFloat, StrictInteger, StrictSchema, choice
 from .common import MAX_GROUPS, MEAN_BOUND, SD_BOUND, Layout, allocation_field
 
@@ -179,6 +180,37 @@ class OneWayAnovaAdapter:
         if design.means is not None:
             report["range_of_means"] = float(np.ptp(design.means))
         return report
+
+    def effect_reports(self, designs: list, sizes: np.ndarray) -> list[dict]:
+        """``effect_report`` for many rows at once (one array pass; same numbers)."""
+        f = np.sqrt(Rows(designs).tests(sizes).noncentrality / sizes.sum(axis=1).astype(float))
+        eta = eta_squared_from_f(f)
+        out = []
+        ranges: dict[int, float] = {}
+        for i, design in enumerate(designs):
+            fi = float(f[i])
+            report = {"cohens_f": fi, "eta_squared": float(eta[i])}
+            if design.sd is not None:
+                report["sd_of_means"] = fi * design.sd
+            if design.means is not None:
+                key = id(design)
+                if key not in ranges:
+                    ranges[key] = float(np.ptp(design.means))
+                report["range_of_means"] = ranges[key]
+            out.append(report)
+        return out
+
+    def warnings_rows(self, designs: list, sizes: np.ndarray) -> list[list[str]]:
+        """``warnings`` for many rows at once."""
+        smallest = sizes.min(axis=1)
+        unequal = (sizes != smallest[:, None]).any(axis=1)
+        out = []
+        for i, design in enumerate(designs):
+            if smallest[i] >= 5 and not unequal[i]:
+                out.append([])
+            else:
+                out.append(self.warnings(design, sizes[i]))
+        return out
 
     def detectable_report(self, layout: Layout, sizes: np.ndarray, noncentrality: float) -> dict:
         """The detectable effect in f, η² and, with an SD, in data units."""
