@@ -55,7 +55,6 @@ import re
 from typing import Any
 
 import numpy as np
-from flask import request
 from marshmallow import Schema, ValidationError, fields, validate
 
 from ..core import planning
@@ -70,6 +69,7 @@ from .body import (
     _no_duplicates,
     _reject_constant,
     parse_json_text,
+    read_json_object,
 )
 from .designs.one_way import OneWayAnovaAdapter, OneWayAnovaDesignSchema
 from .fields import Bounded, StrictInteger, StrictSchema, choice
@@ -173,47 +173,20 @@ def read_table_body(limit: int) -> dict:
     reads it, still refusing NaN, Infinity and duplicate keys and checking the nesting;
     otherwise the strict reader does.
     """
-    mimetype = request.mimetype
-    if mimetype != "application/json" and not (mimetype.startswith("application/") and mimetype.endswith("+json")):
-        raise Problem(415, None, "Unsupported Media Type",
-                      f"send the body as application/json (got {mimetype or 'no Content-Type'})",
-                      headers={"Accept-Post": "application/json"})
-    length = request.content_length
-    if length is not None and length > limit:
-        raise Problem(413, "too-large", "Request body too large",
-                      f"the body has {length} bytes; this route accepts at most {limit}")
-    raw = request.stream.read(limit + 1)
-    if len(raw) > limit:
-        raise Problem(413, "too-large", "Request body too large",
-                      f"the body exceeds the limit of {limit} bytes for this route")
-    if not raw:
-        raise Problem(400, "unparsable", "Body is not valid JSON", "the body is empty")
+    return read_json_object(limit, _parse_table_text)
+
+
+def _parse_table_text(raw: bytes, text: str):
+    if _needs_strict_reader(raw):
+        return parse_json_text(text)
     try:
-        text = raw.decode("utf-8")
-    except UnicodeDecodeError as exc:
-        raise Problem(400, "unparsable", "Body is not valid JSON",
-                      f"the body is not valid UTF-8 (byte {exc.start})") from None
-    try:
-        if _needs_strict_reader(raw):
-            data = parse_json_text(text)
-        else:
-            try:
-                data = json.loads(text, parse_constant=_reject_constant, object_pairs_hook=_no_duplicates)
-            except RecursionError:
-                raise ValueError(f"nesting is too deep (at most {MAX_NESTING} levels of arrays and objects)") from None
-            if isinstance(data, dict):
-                _check_table_nesting(data)
-            elif isinstance(data, list):
-                _check_nesting(data)
-    except json.JSONDecodeError as exc:
-        raise Problem(400, "unparsable", "Body is not valid JSON",
-                      f"{exc.msg} at line {exc.lineno} column {exc.colno}") from None
-    except ValueError as exc:
-        raise Problem(400, "unparsable", "Body is not valid JSON", str(exc)) from None
-    if not isinstance(data, dict):
-        raise Problem(422, "invalid-request", "Request is not valid",
-                      f"the body must be a JSON object (got {type(data).__name__ if data is not None else 'null'})",
-                      errors={"body": ["must be a JSON object"]})
+        data = json.loads(text, parse_constant=_reject_constant, object_pairs_hook=_no_duplicates)
+    except RecursionError:
+        raise ValueError(f"nesting is too deep (at most {MAX_NESTING} levels of arrays and objects)") from None
+    if isinstance(data, dict):
+        _check_table_nesting(data)
+    elif isinstance(data, list):
+        _check_nesting(data)
     return data
 
 
