@@ -85,6 +85,8 @@ def build_spec() -> dict:
         else:
             fallback = {"type": "object"} if ep.media_type == "application/json" else {"type": "string"}
             op["responses"]["200"] = {"description": "OK", "content": {ep.media_type: {"schema": fallback}}}
+        for other in ep.also:  # a chart instead of the JSON points, chosen by Accept
+            op["responses"]["200"]["content"][other] = {"schema": {"type": "string", "contentMediaType": other}}
         if ep.request is not None:
             op["requestBody"] = {"required": True, "content": {"application/json": {"schema": ep.request}}}
             for code, why in (("400", "Body is not valid JSON."), ("408", "Body not received in time."),

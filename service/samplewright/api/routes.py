@@ -31,15 +31,19 @@ class Endpoint:
     #: Media type of the 200 response; extra documented problem responses as (status, why).
     media_type: str = "application/json"
     problems: tuple[tuple[str, str], ...] = ()
+    #: Other media types the 200 response can take when the client's Accept asks for them.
+    also: tuple[str, ...] = ()
 
 
 ENDPOINTS: list[Endpoint] = []
 
 
 def endpoint(path: str, method: str, summary: str, request=None, response=None, tag="planning",
-             media_type="application/json", problems=()):
+             media_type="application/json", problems=(), also=()):
     def register(func):
-        ENDPOINTS.append(Endpoint(path, method, summary, request, response, tag, media_type, tuple(problems)))
+        ENDPOINTS.append(
+            Endpoint(path, method, summary, request, response, tag, media_type, tuple(problems), tuple(also))
+        )
         bp.add_url_rule(path, endpoint=func.__name__, view_func=func, methods=[method])
         return func
 
@@ -237,7 +241,8 @@ def _negotiated(compute, chart, name: str):
 @endpoint("/v1/power-curve", "POST",
           "Power over a range of sizes or effects; a chart with Accept: image/svg+xml or image/png.",
           curves.PowerCurveRequestSchema, curves.PowerCurveResponseSchema,
-          problems=(("406", "Accept names none of application/json, image/svg+xml, image/png."),))
+          problems=(("406", "Accept names none of application/json, image/svg+xml, image/png."),),
+          also=("image/svg+xml", "image/png"))
 def power_curve():
     """Power over a range of sizes or effects; a chart with Accept: image/svg+xml or image/png."""
     return _negotiated(curves.power_curve, curves.curve_chart, "power-curve")
@@ -246,7 +251,8 @@ def power_curve():
 @endpoint("/v1/power-grid", "POST",
           "Power for sizes × effects (what if the effect is off); a chart with Accept: image/svg+xml or image/png.",
           curves.PowerGridRequestSchema, curves.PowerGridResponseSchema,
-          problems=(("406", "Accept names none of application/json, image/svg+xml, image/png."),))
+          problems=(("406", "Accept names none of application/json, image/svg+xml, image/png."),),
+          also=("image/svg+xml", "image/png"))
 def power_grid():
     """Power for sizes × effects (what if the effect is off); a chart with Accept: image/svg+xml or image/png."""
     return _negotiated(curves.power_grid, curves.grid_chart, "power-grid")
