@@ -9,8 +9,14 @@ from marshmallow import ValidationError, validates_schema
 
 from ...core.designs.ancova import OPTIMISM_PER_COVARIATE, OneWayAncova, optimism_bound
 from ...core.designs.base import is_equal, normalised_allocation
-from ..fields import Bounded, BoundedList, StrictFloat, StrictInteger, StrictSchema, choice
-from .common import MAX_GROUPS, MEAN_BOUND, SD_BOUND, Layout, allocation_field
+from ..fields import Bounded, StrictFloat, StrictInteger, StrictSchema, choice
+from .common import (
+    MAX_GROUPS,
+    Layout,
+    allocation_field,
+    means_field,
+    sd_field,
+)
 from .one_way import MAX_COHENS_F
 
 EFFECT_FIELDS = ("group_means",)
@@ -22,16 +28,9 @@ class OneWayAncovaDesignSchema(StrictSchema):
     """One-way ANCOVA: k covariate-adjusted means compared by the F test after q covariates."""
 
     type = choice(["one_way_ancova"], required=True, metadata={"description": "Design family."})
-    group_means = BoundedList(
-        StrictFloat(validate=Bounded(min=-MEAN_BOUND, max=MEAN_BOUND)),
-        min_items=2, max_items=MAX_GROUPS,
-        metadata={"description": "Expected covariate-adjusted mean of each group, in data units (with `sd`)."},
-    )
-    sd = StrictFloat(
-        validate=Bounded(min=0, max=SD_BOUND, min_inclusive=False),
-        metadata={"description": "Unadjusted within-group standard deviation σ of the response, in data units "
-                                 "(the SD before the covariates explain part of it)."},
-    )
+    group_means = means_field("Expected covariate-adjusted mean of each group, in data units (with `sd`).")
+    sd = sd_field("Unadjusted within-group standard deviation σ of the response, in data units "
+                                 "(the SD before the covariates explain part of it).")
     covariate_r2 = StrictFloat(
         required=True, validate=Bounded(min=0, max=MAX_R2),
         metadata={"description": "R², the proportion of the within-group variance of the response the "

@@ -36,6 +36,21 @@ def _spread_ok(ratios: list[float]) -> None:
         )
 
 
+def means_field(description: str, *, min_items: int = 2, max_items: int = MAX_GROUPS) -> BoundedList:
+    """Expected means, one per group or level, each within ±MEAN_BOUND data units."""
+    return BoundedList(
+        StrictFloat(validate=Bounded(min=-MEAN_BOUND, max=MEAN_BOUND)),
+        min_items=min_items, max_items=max_items, metadata={"description": description},
+    )
+
+
+def sd_field(description: str) -> StrictFloat:
+    """A standard deviation in data units: positive, at most SD_BOUND."""
+    return StrictFloat(
+        validate=Bounded(min=0, max=SD_BOUND, min_inclusive=False), metadata={"description": description}
+    )
+
+
 def allocation_field(min_items: int = 2, max_items: int = MAX_GROUPS) -> BoundedList:
     """Positive allocation ratios, one per group (default: equal)."""
     return BoundedList(

@@ -9,7 +9,13 @@ from marshmallow import ValidationError, validates_schema
 
 from ...core.designs.contrast import SUM_TOLERANCE, Contrast
 from ..fields import Bounded, BoundedList, StrictFloat, StrictSchema, choice
-from .common import MAX_GROUPS, MEAN_BOUND, SD_BOUND, Layout, allocation_field
+from .common import (
+    MAX_GROUPS,
+    Layout,
+    allocation_field,
+    means_field,
+    sd_field,
+)
 from .t_tests import TFamilyAdapter, alternative_field
 
 EFFECT_FIELDS = ("group_means",)
@@ -30,15 +36,8 @@ class ContrastDesignSchema(StrictSchema):
     """A planned 1-df contrast ψ = Σ c_i μ_i among the groups of a one-way layout, tested by its t."""
 
     type = choice(["contrast"], required=True, metadata={"description": "Design family."})
-    group_means = BoundedList(
-        StrictFloat(validate=Bounded(min=-MEAN_BOUND, max=MEAN_BOUND)),
-        min_items=2, max_items=MAX_GROUPS,
-        metadata={"description": "Expected mean of each group, in data units (with `sd`)."},
-    )
-    sd = StrictFloat(
-        validate=Bounded(min=0, max=SD_BOUND, min_inclusive=False),
-        metadata={"description": "Common within-group (error) standard deviation σ, in data units."},
-    )
+    group_means = means_field("Expected mean of each group, in data units (with `sd`).")
+    sd = sd_field("Common within-group (error) standard deviation σ, in data units.")
     coefficients = BoundedList(
         StrictFloat(validate=Bounded(min=-COEFFICIENT_BOUND, max=COEFFICIENT_BOUND)),
         min_items=2, max_items=MAX_GROUPS, required=True,

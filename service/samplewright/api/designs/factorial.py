@@ -10,7 +10,7 @@ from marshmallow import ValidationError, validates_schema
 from ...core import planning
 from ...core.designs.factorial import EFFECTS, FactorialAnova
 from ..fields import Bounded, BoundedList, StrictFloat, StrictInteger, StrictSchema, choice
-from .common import MAX_GROUPS, MEAN_BOUND, SD_BOUND, Layout
+from .common import MAX_GROUPS, MEAN_BOUND, Layout, sd_field
 from .one_way import MAX_COHENS_F
 
 EFFECT_FIELDS = ("cell_means",)
@@ -32,10 +32,7 @@ class FactorialAnovaDesignSchema(StrictSchema):
                                  f"{MAX_CELLS} cells), in data units (with `sd`). `group_sizes`, when given, "
                                  "lists the cell sizes in the same row-major order."},
     )
-    sd = StrictFloat(
-        validate=Bounded(min=0, max=SD_BOUND, min_inclusive=False),
-        metadata={"description": "Common within-cell (error) standard deviation σ, in data units."},
-    )
+    sd = sd_field("Common within-cell (error) standard deviation σ, in data units.")
     effect = choice(
         list(EFFECTS), required=True,
         metadata={"description": "The effect tested: `factor_a` (rows), `factor_b` (columns) or `interaction`."},

@@ -10,8 +10,15 @@ from marshmallow import ValidationError, validates_schema
 from ...core.designs.base import is_equal, normalised_allocation
 from ...core.designs.one_way import OneWayAnova, eta_squared_from_f, f_from_eta_squared
 from ...core.vectorised import Rows
-from ..fields import Bounded, BoundedList, StrictFloat, StrictInteger, StrictSchema, choice
-from .common import MAX_GROUPS, MEAN_BOUND, SD_BOUND, Layout, allocation_field
+from ..fields import Bounded, StrictFloat, StrictInteger, StrictSchema, choice
+from .common import (
+    MAX_GROUPS,
+    MEAN_BOUND,
+    Layout,
+    allocation_field,
+    means_field,
+    sd_field,
+)
 
 EFFECT_FIELDS = ("group_means", "cohens_f", "eta_squared", "min_range")
 #: Largest Cohen's f accepted in any of its forms (power is 1 long before; beyond it the
@@ -23,15 +30,8 @@ class OneWayAnovaDesignSchema(StrictSchema):
     """One-way fixed-effects ANOVA: k group means compared by the omnibus F test."""
 
     type = choice(["one_way_anova"], required=True, metadata={"description": "Design family."})
-    group_means = BoundedList(
-        StrictFloat(validate=Bounded(min=-MEAN_BOUND, max=MEAN_BOUND)),
-        min_items=2, max_items=MAX_GROUPS,
-        metadata={"description": "Expected mean of each group, in the units of the data (with `sd`)."},
-    )
-    sd = StrictFloat(
-        validate=Bounded(min=0, max=SD_BOUND, min_inclusive=False),
-        metadata={"description": "Common within-group (error) standard deviation σ, in the units of the data."},
-    )
+    group_means = means_field("Expected mean of each group, in the units of the data (with `sd`).")
+    sd = sd_field("Common within-group (error) standard deviation σ, in the units of the data.")
     cohens_f = StrictFloat(
         validate=Bounded(min=0, max=MAX_COHENS_F),
         metadata={"description": "Cohen's f = σ_m/σ, the SD of the group means over the error SD (with `groups`)."},

@@ -9,8 +9,8 @@ from marshmallow import ValidationError, validates_schema
 
 from ...core.designs.pairwise import ADJUSTMENTS, PairwiseComparisons
 from ...core.distributions import f_critical_value
-from ..fields import Bounded, BoundedList, StrictFloat, StrictInteger, StrictSchema, choice
-from .common import MEAN_BOUND, SD_BOUND, Layout, allocation_field
+from ..fields import Bounded, StrictInteger, StrictSchema, choice
+from .common import Layout, allocation_field, means_field, sd_field
 
 EFFECT_FIELDS = ("group_means",)
 #: Most groups: all pairs of 30 groups are 435 comparisons, each reported.
@@ -21,15 +21,8 @@ class PairwiseComparisonsDesignSchema(StrictSchema):
     """Every pair of groups (or every group against a control) compared by a two-sided t test."""
 
     type = choice(["pairwise_comparisons"], required=True, metadata={"description": "Design family."})
-    group_means = BoundedList(
-        StrictFloat(validate=Bounded(min=-MEAN_BOUND, max=MEAN_BOUND)),
-        min_items=2, max_items=MAX_PAIRWISE_GROUPS,
-        metadata={"description": "Expected mean of each group, in data units (with `sd`)."},
-    )
-    sd = StrictFloat(
-        validate=Bounded(min=0, max=SD_BOUND, min_inclusive=False),
-        metadata={"description": "Common within-group (error) standard deviation σ, in data units."},
-    )
+    group_means = means_field("Expected mean of each group, in data units (with `sd`).", max_items=MAX_PAIRWISE_GROUPS)
+    sd = sd_field("Common within-group (error) standard deviation σ, in data units.")
     groups = StrictInteger(
         validate=Bounded(min=2, max=MAX_PAIRWISE_GROUPS),
         metadata={"description": "Number of groups k (implied by `group_means`; needed without it for "

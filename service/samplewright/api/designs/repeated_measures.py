@@ -8,8 +8,8 @@ import numpy as np
 from marshmallow import ValidationError, validates_schema
 
 from ...core.designs.repeated_measures import RepeatedMeasuresAnova, correlation_bounds
-from ..fields import Bounded, BoundedList, StrictFloat, StrictInteger, StrictSchema, choice
-from .common import MEAN_BOUND, SD_BOUND, Layout
+from ..fields import Bounded, StrictFloat, StrictInteger, StrictSchema, choice
+from .common import Layout, means_field, sd_field
 from .one_way import MAX_COHENS_F
 
 EFFECT_FIELDS = ("level_means",)
@@ -23,15 +23,8 @@ class RepeatedMeasuresDesignSchema(StrictSchema):
     """One within-subject factor: m level means, every subject measured at every level; univariate RM F test."""
 
     type = choice(["repeated_measures"], required=True, metadata={"description": "Design family."})
-    level_means = BoundedList(
-        StrictFloat(validate=Bounded(min=-MEAN_BOUND, max=MEAN_BOUND)),
-        min_items=2, max_items=MAX_LEVELS,
-        metadata={"description": "Expected mean at each level (time point, condition), in data units (with `sd`)."},
-    )
-    sd = StrictFloat(
-        validate=Bounded(min=0, max=SD_BOUND, min_inclusive=False),
-        metadata={"description": "Standard deviation σ at each level (the same at every level), in data units."},
-    )
+    level_means = means_field("Expected mean at each level (time point, condition), in data units (with `sd`).", max_items=MAX_LEVELS)
+    sd = sd_field("Standard deviation σ at each level (the same at every level), in data units.")
     correlation = StrictFloat(
         required=True, validate=Bounded(min=-1, max=MAX_CORRELATION, min_inclusive=False),
         metadata={"description": "Correlation ρ between any two levels within a subject (compound symmetry); "

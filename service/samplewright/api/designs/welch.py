@@ -9,7 +9,7 @@ from marshmallow import ValidationError, validates_schema
 
 from ...core.designs.welch import APPROXIMATION_ERROR, WelchAnova
 from ..fields import Bounded, BoundedList, StrictFloat, StrictSchema, choice
-from .common import MAX_GROUPS, MEAN_BOUND, SD_BOUND, Layout, allocation_field
+from .common import MAX_GROUPS, SD_BOUND, Layout, allocation_field, means_field
 from .one_way import MAX_COHENS_F
 
 EFFECT_FIELDS = ("group_means",)
@@ -21,11 +21,7 @@ class WelchAnovaDesignSchema(StrictSchema):
     """Welch's ANOVA: k means compared without assuming equal variances (power by approximation)."""
 
     type = choice(["welch_anova"], required=True, metadata={"description": "Design family."})
-    group_means = BoundedList(
-        StrictFloat(validate=Bounded(min=-MEAN_BOUND, max=MEAN_BOUND)),
-        min_items=2, max_items=MAX_GROUPS,
-        metadata={"description": "Expected mean of each group, in data units."},
-    )
+    group_means = means_field("Expected mean of each group, in data units.")
     group_sds = BoundedList(
         StrictFloat(validate=Bounded(min=0, max=SD_BOUND, min_inclusive=False)),
         required=True, min_items=2, max_items=MAX_GROUPS,
