@@ -33,16 +33,21 @@ def _reject_constant(name: str):
 
 
 def _bounded_int(text: str) -> int:
+    if len(text) <= MAX_INTEGER_DIGITS:  # the sign only makes the text longer
+        return int(text)
     digits = len(text.lstrip("-"))
     if digits > MAX_INTEGER_DIGITS:
         raise ValueError(f"an integer literal of {digits} digits is out of range")
     return int(text)
 
 
+_SMALLEST_NORMAL = sys.float_info.min
+
+
 def _float(text: str) -> float | TinyNumber:
     """A float literal; a nonzero one that a double cannot hold (1e-400) is kept as text."""
     value = float(text)
-    if abs(value) < sys.float_info.min and any(c in "123456789" for c in text.lower().split("e")[0]):
+    if -_SMALLEST_NORMAL < value < _SMALLEST_NORMAL and any(c in "123456789" for c in text.lower().split("e")[0]):
         return TinyNumber(text)
     return value
 
@@ -73,6 +78,58 @@ def _no_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
 #: Built once (json.loads with hooks builds a decoder and its scanner on every call).
 _STRICT = json.JSONDecoder(parse_constant=_reject_constant, parse_float=_float, parse_int=_bounded_int,
                            object_pairs_hook=_no_duplicates)
+#: The same without the number hooks, which cost a Python call per literal: used only when
+#: no literal in the text could make them differ from the C parser (``_has_long_literal``).
+_FAST = json.JSONDecoder(parse_constant=_reject_constant, object_pairs_hook=_no_duplicates)
+
+_TOO_DEEP = f"nesting is too deep (at most {MAX_NESTING} levels of arrays and objects)"
+
+#: Digits become '0' and 'E' becomes 'e', and signs go (a sign never stands between two digits
+#: of a literal), so that two substring searches find every literal the number hooks could
+#: treat differently from the C parser.
+_LITERAL_SHAPE = bytes.maketrans(b"123456789E", b"000000000e")
+_SIGNS = b"+-"
+_LONG_DIGIT_RUN = b"0" * (MAX_INTEGER_DIGITS + 1)
+_LONG_EXPONENT = b"e000"
+#: Keeps only quotes and brackets, both kinds of bracket as one (depth does not care which).
+_BRACKETS = bytes.maketrans(b"[]{}", b"()()")
+_NOT_STRUCTURE = bytes(sorted(set(range(256)) - set(b'"[]{}')))
+
+
+def _has_long_literal(raw: bytes) -> bool:
+    """Whether the text may hold a literal on which the number hooks and the C parser differ.
+
+    ``_bounded_int`` refuses only a run of more than MAX_INTEGER_DIGITS digits, and
+    ``_float`` returns a TinyNumber only for a magnitude below the smallest normal double,
+    which needs an exponent of three or more digits or a fraction with over 200 leading
+    zeros. A match inside a string only sends the text to the hooked decoder, which is
+    always correct.
+    """
+    shape = raw.translate(_LITERAL_SHAPE, _SIGNS)
+    return _LONG_DIGIT_RUN in shape or _LONG_EXPONENT in shape
+
+
+def _nested_too_deep(raw: bytes) -> bool:
+    """Whether valid JSON text nests arrays and objects more than MAX_NESTING deep.
+
+    Reads the text rather than walking the parsed value: that walk costs as much as the
+    parse itself. Only valid JSON may be passed: its escapes and quotes are well formed.
+    """
+    if b"\\" in raw:
+        # Pairs of backslashes first, so that what remains of ``\\"`` is a closing quote.
+        raw = raw.replace(b"\\\\", b"").replace(b'\\"', b"")
+    kept = raw.translate(_BRACKETS, _NOT_STRUCTURE)
+    if kept.count(b"(") <= MAX_NESTING:  # brackets in strings only raise the count
+        return False
+    kept = kept.replace(b'""', b"")  # the strings that hold no bracket
+    if b'"' in kept:  # a string holds a bracket; quotes still alternate opening and closing
+        kept = b"".join(kept.split(b'"')[::2])
+    # Each pass removes every empty container, lowering the depth by exactly one.
+    for _ in range(MAX_NESTING):
+        if not kept:
+            return False
+        kept = kept.replace(b"()", b"")
+    return bool(kept)
 
 
 def parse_json_text(text: str) -> Any:
@@ -80,11 +137,12 @@ def parse_json_text(text: str) -> Any:
     try:
         if text.startswith("\ufeff"):  # as json.loads
             raise json.JSONDecodeError("Unexpected UTF-8 BOM (decode using utf-8-sig)", text, 0)
-        data = _STRICT.decode(text)
+        raw = text.encode("utf-8", "surrogatepass")  # a lone surrogate is valid in a JSON string
+        data = (_STRICT if _has_long_literal(raw) else _FAST).decode(text)
     except RecursionError:
-        raise ValueError(f"nesting is too deep (at most {MAX_NESTING} levels of arrays and objects)") from None
-    if isinstance(data, dict | list):
-        _check_nesting(data)
+        raise ValueError(_TOO_DEEP) from None
+    if isinstance(data, dict | list) and _nested_too_deep(raw):
+        raise ValueError(_TOO_DEEP)
     return data
 
 
