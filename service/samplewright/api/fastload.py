@@ -14,7 +14,8 @@ dotted attributes, ``partial``/``many``) are always loaded by marshmallow.
 
 from __future__ import annotations
 
-import json
+import io
+import pickle
 from collections.abc import Iterator
 from contextlib import contextmanager
 from contextvars import ContextVar
@@ -26,9 +27,51 @@ from marshmallow.fields import Field
 from marshmallow.utils import missing
 
 _DEFER = object()
-_KEY_TEXT = json.JSONEncoder(allow_nan=False)
-#: Within ``sharing()``: validated results of shareable loaders, by (loader, input JSON).
-_SHARED: ContextVar[dict | None] = ContextVar("samplewright_shared_loads", default=None)
+
+
+class _KeyPickler(pickle.Pickler):
+    """Pickles exact built-in values only: None, bool, int, float, str, bytes, list, tuple,
+    dict, set and frozenset, each with an opcode of its own.
+
+    The C pickler writes those types itself (by exact type, so no subclass passes) and asks
+    ``reducer_override`` about every other object, which is refused: the bytes then never
+    depend on an object's own ``__reduce__``. Protocol 4 also refuses ``bytearray`` and
+    ``PickleBuffer``, which protocol 5 would write like ``bytes``.
+    """
+
+    def reducer_override(self, obj):
+        raise TypeError(f"{type(obj).__name__} is not a plain value")
+
+
+class _Shared:
+    """The state of one ``sharing()`` block: validated results and the key writer."""
+
+    __slots__ = ("_buffer", "_pickler", "results")
+
+    def __init__(self) -> None:
+        #: (loader, input key) → validated dict; the loader is held, so its id is not reused
+        self.results: dict[tuple[FastLoader, bytes], dict] = {}
+        self._buffer = io.BytesIO()
+        self._pickler = _KeyPickler(self._buffer, protocol=4)
+
+    def key(self, data: Any) -> bytes | None:
+        """The input's pickle (see ``sharing``), or None for an input that is not plain values."""
+        buffer, pickler = self._buffer, self._pickler
+        try:
+            pickler.dump(data)
+            return buffer.getvalue()
+        except (TypeError, ValueError, RecursionError, pickle.PicklingError):
+            return None
+        finally:
+            # The memo maps ids of this input's objects to back-references: a later input must
+            # never meet them (an id can pass to another object once this one is gone).
+            buffer.seek(0)
+            buffer.truncate()
+            pickler.clear_memo()
+
+
+#: Within ``sharing()``: validated results of shareable loaders, by (loader, input key).
+_SHARED: ContextVar[_Shared | None] = ContextVar("samplewright_shared_loads", default=None)
 
 
 @contextmanager
@@ -37,10 +80,14 @@ def sharing() -> Iterator[None]:
 
     A batch repeats the same design in many items; its validated dict is then one object
     shared by those items (read-only by convention, like every validated request). Inputs
-    are told apart by their JSON text with the keys in the order given, so 5 and 5.0, or
-    true and 1, are never confused; only successful loads are kept.
+    are told apart by their pickle (``_KeyPickler``: exact built-in types only, each with its
+    own opcode, floats by their 8 bytes, dict keys in the order given), so 5 and 5.0, true and
+    1, 0.0 and -0.0, or "5" and 5 are never confused, and an input holding any other object
+    is not shared. Two inputs share a result only if they are the same value for value (floats
+    bit for bit), type for type and in the same order, so marshmallow would give both the same
+    result and the same errors; only successful loads are kept.
     """
-    token = _SHARED.set({})
+    token = _SHARED.set(_Shared())
     try:
         yield
     finally:
@@ -72,7 +119,12 @@ class FastLoader:
             # matter for a missing or null value; fields that keep it are called directly.
             direct = (type(field).deserialize is Field.deserialize and not field.pre_load
                       and not field.post_load)
-            fields.append((key, target, field, direct, tuple(field.validators)))
+            # Looked up once here rather than per call (fields do not change after the schema
+            # is built): the bound _deserialize, whether a missing value is an error, and the
+            # load default with whether to call it.
+            default = field.load_default
+            fields.append((key, target, field, direct, field._deserialize, tuple(field.validators),
+                           field.required, default, callable(default)))
         # marshmallow runs the collection validators first, then the per-item ones; with
         # many=False both receive the one item.
         validators = []
@@ -94,16 +146,16 @@ class FastLoader:
             extra = data.keys() - known
         out: dict[str, Any] = {}
         try:
-            for key, target, field, direct, checks in fields:
+            for key, target, field, direct, deserialize, checks, required, default, call in fields:
                 raw = data.get(key, missing)
                 if not direct or raw is None:
                     value = field.deserialize(raw, key, data)
                 elif raw is missing:  # as Field.deserialize: required → error, else the load default
-                    if field.required:
+                    if required:
                         return _DEFER
-                    value = field.load_default() if callable(field.load_default) else field.load_default
+                    value = default() if call else default
                 else:
-                    value = field._deserialize(raw, key, data)
+                    value = deserialize(raw, key, data)
                     for check in checks:
                         if check(value) is False:  # marshmallow fails a validator that returns False
                             return _DEFER
@@ -123,22 +175,20 @@ class FastLoader:
 
     def load(self, data: Any) -> dict[str, Any]:
         """The validated dict, or marshmallow's ValidationError for this input."""
-        memo = _SHARED.get() if self.shareable else None
+        shared = _SHARED.get() if self.shareable else None
         key = None
-        if memo is not None:
-            try:
-                key = (id(self), _KEY_TEXT.encode(data))
-            except (TypeError, ValueError):  # not plain JSON (e.g. a number too small for a double)
-                key = None
-            else:
-                hit = memo.get(key)
+        if shared is not None:
+            text = shared.key(data)
+            if text is not None:
+                key = (self, text)
+                hit = shared.results.get(key)
                 if hit is not None:
                     return hit
         out = self._fast(data) if self._plan is not None else _DEFER
         if out is _DEFER:
             out = self.schema.load(data)
         if key is not None:
-            memo[key] = out
+            shared.results[key] = out
         return out
 
 
