@@ -182,3 +182,69 @@ def test_noncentrality_respects_iteration_ceiling():
 def test_max_noncentrality_is_finite_bound():
     """The bracket ceiling is a finite number (every loop is bounded)."""
     assert np.isfinite(solve.MAX_NONCENTRALITY) and solve.MAX_NONCENTRALITY > 0
+
+
+def _wiggly(rng: np.random.Generator, cap: int):
+    """A power table over 0..cap+1 rising with noise, so it is not monotone everywhere."""
+    table = np.sort(rng.uniform(0, 1, cap + 2))
+    flips = rng.integers(0, cap + 2, size=max(1, cap // 4))
+    table[flips] = rng.uniform(0, 1, flips.size)  # local dips and jumps
+    return table
+
+
+def test_one_problem_twin_probes_what_the_array_form_probes():
+    """smallest_integer_reaching_one probes the same sizes in the same order as the array form, monotone or not."""
+    rng = np.random.default_rng(41)
+    for _ in range(400):
+        cap = int(rng.choice([1, 2, 3, 7, 50, 1000, 10**6]))
+        lower = int(rng.integers(1, cap + 1))
+        table = _wiggly(rng, min(cap, 4000)) if rng.random() < 0.5 else None
+        target = float(rng.uniform(0.05, 1.05))
+        start = None if rng.random() < 0.2 else int(rng.integers(-5, cap + 10))
+
+        def power(m, table=table, cap=cap):
+            if table is None:
+                return m / cap  # monotone
+            return table[m % table.size]
+
+        array_probes, one_probes = [], []
+
+        def power_rows(probe, seen=array_probes):
+            seen.append(int(probe[0]))
+            return np.array([power(int(probe[0]))])
+
+        def power_one(m, seen=one_probes):
+            seen.append(m)
+            return power(m)
+
+        m_rows, found_rows = smallest_integer_reaching(
+            power_rows, target=np.array([target]), lower=np.array([lower]), cap=cap,
+            start=None if start is None else np.array([start]),
+        )
+        m_one, found_one = solve.smallest_integer_reaching_one(
+            power_one, target=target, lower=lower, cap=cap, start=start,
+        )
+        assert (m_one, found_one) == (int(m_rows[0]), bool(found_rows[0]))
+        assert one_probes == array_probes
+        assert type(m_one) is int
+
+
+def test_one_problem_twin_equals_each_row_of_a_lockstep_search():
+    """Each of 300 lockstep problems (non-monotone powers, own start and lower) gets the twin's answer alone."""
+    rng = np.random.default_rng(43)
+    cap = 500
+    tables = np.array([_wiggly(rng, cap) for _ in range(300)])
+    lower = rng.integers(1, 40, size=300)
+    start = rng.integers(0, cap + 20, size=300)
+    target = rng.uniform(0.1, 1.0, size=300)
+
+    def power_rows(probe):
+        return tables[np.arange(300), probe]
+
+    m, found = smallest_integer_reaching(power_rows, target=target, lower=lower, cap=cap, start=start)
+    for i in range(300):
+        alone = solve.smallest_integer_reaching_one(
+            lambda k, i=i: float(tables[i, k]), target=float(target[i]), lower=int(lower[i]), cap=cap,
+            start=int(start[i]),
+        )
+        assert alone == (int(m[i]), bool(found[i]))

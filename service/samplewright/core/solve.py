@@ -2,7 +2,11 @@
 that gives a power.
 
 Both work on arrays in lockstep, so one call answers one question or ten thousand with
-the same code. Every loop has a fixed iteration ceiling; nothing here is open-ended.
+the same code. The integer search also has a one-problem twin on plain Python integers
+(``smallest_integer_reaching_one``) that probes exactly the sizes the array form probes
+for that problem, in the same order, so a question asked alone and the same question in
+a batch see the same powers and stop at the same size. Every loop has a fixed iteration
+ceiling; nothing here is open-ended.
 """
 
 from __future__ import annotations
@@ -49,7 +53,7 @@ def smallest_integer_reaching(
     up = ~reached & (probe < cap)  # galloping towards larger sizes
     down = reached & (probe > lower)  # galloping towards smaller sizes
     step = np.ones(lower.shape, dtype=np.int64)
-    steps = int(np.ceil(np.log2(max(cap, 2)))) + 2
+    steps = _steps(cap)
     for _ in range(steps):
         live = up | down
         if not live.any():
@@ -72,6 +76,66 @@ def smallest_integer_reaching(
         good = np.where(gap & reached, mid, good)
         bad = np.where(gap & ~reached, mid, bad)
     return np.where(found, good, cap), found
+
+
+def _steps(cap: int) -> int:
+    """Iteration ceiling of each phase of the integer search: log2(cap) + 2."""
+    return int(np.ceil(np.log2(max(cap, 2)))) + 2
+
+
+def smallest_integer_reaching_one(
+    power_at: Callable[[int], float],
+    *,
+    target: float,
+    lower: int,
+    cap: int,
+    start: int | None = None,
+) -> tuple[int, bool]:
+    """``smallest_integer_reaching`` for one problem, on Python integers.
+
+    ``power_at`` maps one integer m to the power at that size. The probes are those the
+    array form makes for this problem (same start clipped to [lower, cap], same galloping
+    steps, same bisection midpoints, same iteration ceilings), so the answer is the array
+    form's even where ``power_at`` is not monotone to the last bit. The array form's
+    bookkeeping costs more than an evaluation when there is one problem; this costs
+    nothing beside the evaluations.
+
+    Returns ``(m, found)`` as the array form does for its one entry.
+    """
+    probe = lower if start is None else min(max(int(start), lower), cap)
+    good = cap + 1  # smallest size known to reach
+    bad = lower - 1  # largest size known to fall short
+    reached = power_at(probe) >= target
+    if reached:
+        good = probe
+    else:
+        bad = probe
+    up = not reached and probe < cap
+    down = reached and probe > lower
+    step = 1
+    steps = _steps(cap)
+    for _ in range(steps):
+        if not (up or down):
+            break
+        probe = min(bad + step, cap) if up else max(good - step, lower)
+        reached = power_at(probe) >= target
+        if reached:
+            good = min(good, probe)
+        else:
+            bad = max(bad, probe)
+        up = up and not reached and probe < cap
+        down = down and reached and probe > lower
+        step *= 2
+    found = good <= cap
+    for _ in range(steps):
+        if not (found and good - bad > 1):
+            break
+        mid = (good + bad) // 2
+        if power_at(mid) >= target:
+            good = mid
+        else:
+            bad = mid
+    return (good if found else cap), found
 
 
 def noncentrality_for_power(

@@ -22,18 +22,25 @@ How the rows are evaluated depends on what the design class offers (checked once
 
 Rows are independent: no value of one row depends on another, which is what lets the
 lockstep searches of ``solve.py`` answer many questions as if each were asked alone.
+
+A ``Rows`` of one (a single request) is built without the stacking loops: its stack holds
+the design's values with a leading axis of one, the arrays ``np.stack`` would make from a
+list of one, so it is evaluated by the same operations on the same values as a row of a
+large stack. It remembers its smallest unit and its tests per size, since the planning
+functions for one design ask for them more than once.
 """
 
 from __future__ import annotations
 
 import dataclasses
+import math
 from collections.abc import Sequence
 
 import numpy as np
 
 from .designs.base import _RATIO_SLACK, Evaluation, FTest, FTestDesign
 from .designs.one_way import OneWayAnova
-from .distributions import f_test_power
+from .distributions import f_critical_value, f_test_power
 
 _STACKABLE: set[type] = set()
 _EVALUATION_FIELDS = ("power", "df1", "df2", "noncentrality", "critical_value")
@@ -60,6 +67,8 @@ def _is_stackable(cls: type) -> bool:
 
 
 _FIELD_NAMES: dict[type, tuple[str, ...]] = {}
+#: Field values that are part of a stack's signature rather than stacked.
+_PLAIN = (bool, int, str)
 
 
 def stack_signature(design) -> tuple | None:
@@ -71,11 +80,8 @@ def stack_signature(design) -> tuple | None:
     cls = type(design)
     if not _is_stackable(cls):
         return None
-    names = _FIELD_NAMES.get(cls)
-    if names is None:
-        names = _FIELD_NAMES[cls] = tuple(f.name for f in dataclasses.fields(cls))
     parts = []
-    for name in names:
+    for name in _field_names(cls):
         value = getattr(design, name)
         if value is None:
             parts.append((name, None))
@@ -83,17 +89,81 @@ def stack_signature(design) -> tuple | None:
             parts.append((name, "array", value.shape, value.dtype.kind))
         elif isinstance(value, float):
             parts.append((name, "float"))
-        elif isinstance(value, bool | int | str):
+        elif isinstance(value, _PLAIN):
             parts.append((name, "value", value))
         else:
             return None
     return tuple(parts)
 
 
+def _field_names(cls: type) -> tuple[str, ...]:
+    names = _FIELD_NAMES.get(cls)
+    if names is None:
+        names = _FIELD_NAMES[cls] = tuple(f.name for f in dataclasses.fields(cls))
+    return names
+
+
+def _stack_one(cls: type, design):
+    """``_build_stack`` for the list ``[design]``, without building its signature.
+
+    The fields are classified as ``stack_signature`` classifies them (None, array, float,
+    plain value; anything else: not stacked). A float field becomes a one-element float
+    array and an array field a fresh contiguous array with a leading axis of one, exactly
+    what ``np.array([x])`` and ``np.stack([a])`` make, so a design asked about alone is
+    evaluated by the same array operations on the same values as inside a stack of many.
+    """
+    if not _is_stackable(cls):
+        return None, ()
+    values = {}
+    names = []
+    for name in _field_names(cls):
+        value = getattr(design, name)
+        if value is None:
+            pass
+        elif isinstance(value, np.ndarray):
+            value = value[np.newaxis].copy()
+            names.append(name)
+        elif isinstance(value, float):
+            value = np.array([value], dtype=float)
+            names.append(name)
+        elif not isinstance(value, _PLAIN):
+            return None, ()
+        values[name] = value
+    obj = object.__new__(cls)
+    obj.__dict__.update(values)  # as object.__setattr__ field by field (frozen dataclass), at once
+    return obj, tuple(names)
+
+
+#: Per design class: which of FTestDesign's defaults it keeps (see ``_traits``).
+_TRAITS: dict[type, tuple[bool, bool, bool, bool]] = {}
+
+
+def _traits(cls: type) -> tuple[bool, bool, bool, bool]:
+    """(has test_at, default evaluate, default power_at_noncentrality, default smallest_unit).
+
+    A property of the class alone, so it is worked out once per class rather than once per
+    ``Rows`` (a single request builds one or two).
+    """
+    found = _TRAITS.get(cls)
+    if found is None:
+        has_test_at = issubclass(cls, FTestDesign) and cls.test_at is not FTestDesign.test_at
+        default_evaluate = has_test_at and cls.evaluate is FTestDesign.evaluate
+        found = _TRAITS[cls] = (
+            has_test_at,
+            default_evaluate,
+            default_evaluate and cls.power_at_noncentrality is FTestDesign.power_at_noncentrality,
+            has_test_at and cls.smallest_unit is FTestDesign.smallest_unit,
+        )
+    return found
+
+
 def rows_key(design) -> tuple:
     """Designs with equal keys can be answered as one ``Rows``."""
     signature = stack_signature(design)
     return (type(design), int(design.groups), signature if signature is not None else "each")
+
+
+_SHRINK = 1 - _RATIO_SLACK  # the factor sizes_from_rows applies, as one constant
 
 
 def sizes_from_rows(m, ratios: np.ndarray) -> np.ndarray:
@@ -103,6 +173,11 @@ def sizes_from_rows(m, ratios: np.ndarray) -> np.ndarray:
     order, so the same integers): ``ratios`` has shape (rows, k), divided by each row's
     minimum.
     """
+    if type(m) is int and 0 <= m < 2**53 and ratios.shape[0] == 1:
+        # One row's m as a plain int (the one-design planning path), in Python floats: m
+        # converts to a double exactly, as in the int64 column below, and the two products
+        # and the ceiling are the same IEEE operations, at a fraction of numpy's dispatch.
+        return np.array([[math.ceil(m * r * _SHRINK) for r in ratios[0].tolist()]], dtype=np.int64)
     m = np.asarray(m, dtype=np.int64).reshape(-1, 1)
     return np.ceil(m * ratios * (1 - _RATIO_SLACK)).astype(np.int64)
 
@@ -138,6 +213,20 @@ def _distinct_rows(*columns: np.ndarray) -> tuple[np.ndarray, np.ndarray] | None
     return firsts, inverse
 
 
+def _distinct_critical_values(alpha, df1, df2) -> np.ndarray | None:
+    """Critical values of 1-d rows, each distinct (α, df1, df2) computed once (None: not worth it)."""
+    a, d1, d2 = (np.asarray(v, dtype=float) for v in (alpha, df1, df2))
+    if not (a.ndim == d1.ndim == d2.ndim == 1 and a.size == d1.size == d2.size):
+        return None
+    if not (np.isfinite(a).all() and np.isfinite(d1).all() and np.isfinite(d2).all()):
+        return None
+    found = _distinct_rows(a, d1, d2)
+    if found is None:
+        return None
+    firsts, inverse = found
+    return np.atleast_1d(f_critical_value(a[firsts], d1[firsts], d2[firsts]))[inverse]
+
+
 def _f_evaluate(test: FTest, alpha: np.ndarray) -> Evaluation:
     """``FTestDesign.evaluate`` for tests already known, each critical value computed once.
 
@@ -145,17 +234,10 @@ def _f_evaluate(test: FTest, alpha: np.ndarray) -> Evaluation:
     over many rows: each distinct one is computed once and copied to its rows. The
     computation is elementwise, so every row gets the value it would get alone.
     """
-    from .distributions import f_critical_value
-
     df1, df2, lam = test.df1, test.df2, test.noncentrality
-    a, d1, d2 = (np.asarray(v, dtype=float) for v in (alpha, df1, df2))
     crit = None
-    if a.ndim == d1.ndim == d2.ndim == 1 and a.size == d1.size == d2.size >= _DISTINCT_FROM:
-        if np.isfinite(a).all() and np.isfinite(d1).all() and np.isfinite(d2).all():
-            found = _distinct_rows(a, d1, d2)
-            if found is not None:
-                firsts, inverse = found
-                crit = np.atleast_1d(f_critical_value(a[firsts], d1[firsts], d2[firsts]))[inverse]
+    if np.size(alpha) >= _DISTINCT_FROM:  # a sweep (one request's rows skip the conversions)
+        crit = _distinct_critical_values(alpha, df1, df2)
     if crit is None:
         crit = np.atleast_1d(f_critical_value(alpha, df1, df2))
     power = np.atleast_1d(f_test_power(alpha, df1, df2, lam, critical=crit))
@@ -229,20 +311,19 @@ class Rows:
         self.count = len(self.designs)
         if isinstance(designs, _ColumnDesigns):
             self.ratios = np.asarray(first.ratios, dtype=float).reshape(self.count, self.groups)
+        elif self.count == 1:  # one request: skip the list comprehension (same array)
+            self.ratios = np.array(first.ratios, dtype=float).reshape(1, self.groups)
         else:
             self.ratios = np.array([d.ratios for d in self.designs], dtype=float).reshape(self.count, self.groups)
-        ftest = isinstance(first, FTestDesign)
-        self._has_test_at = ftest and cls.test_at is not FTestDesign.test_at
-        self._default_evaluate = self._has_test_at and cls.evaluate is FTestDesign.evaluate
-        self._default_lam = self._default_evaluate and (
-            cls.power_at_noncentrality is FTestDesign.power_at_noncentrality
-        )
-        self._default_unit = self._has_test_at and cls.smallest_unit is FTestDesign.smallest_unit
+        (self._has_test_at, self._default_evaluate, self._default_lam,
+         self._default_unit) = _traits(cls)
         if _stack is not None:
             self._stacked, self._stacked_names = _stack
         else:
             self._stacked, self._stacked_names = self._build_stack()
         self._shared: list[tuple[object, np.ndarray]] | None = None
+        self._unit: np.ndarray | None = None
+        self._tests_of_one: dict[int, FTest] = {}  # see test_of_one
 
     # -- construction ----------------------------------------------------------------
 
@@ -285,6 +366,8 @@ class Rows:
         return cls_rows(_ColumnDesigns(obj, tuple(names), count), _stack=(obj, tuple(names)))
 
     def _build_stack(self):
+        if self.count == 1:
+            return _stack_one(self.cls, self.designs[0])
         signature = stack_signature(self.designs[0])
         if signature is None:
             return None, ()
@@ -350,6 +433,8 @@ class Rows:
         """df1, df2 and λ of every row's F test (designs with a ``test_at``)."""
         if self._stacked is not None:
             return self._stacked.test_at(sizes)
+        if self.count == 1:
+            return self.designs[0].test_at(sizes)
         shared = self._by_design()
         if len(shared) == 1:
             return shared[0][0].test_at(sizes)
@@ -368,6 +453,11 @@ class Rows:
             return _f_evaluate(self.tests(sizes), alpha)
         if self._stacked is not None:
             return self._stacked.evaluate(sizes, alpha)
+        if self.count == 1:
+            # The one (design, α) group of the general path below, without its bookkeeping:
+            # concatenating a single part in row order copies it unchanged.
+            ev = self.designs[0].evaluate(sizes, alpha.tolist()[0])
+            return Evaluation(*(np.atleast_1d(np.asarray(getattr(ev, f))).copy() for f in _EVALUATION_FIELDS))
         groups: dict[tuple[int, float], tuple[object, list[int]]] = {}
         alphas = alpha.tolist()
         for d, ix in self._by_design():
@@ -397,9 +487,36 @@ class Rows:
             return np.asarray(self.tests(sizes).df2, dtype=float)
         return self.evaluate(sizes, np.full(self.count, 0.05)).df2
 
+    #: The default smallest unit (FTestDesign.smallest_unit) is one of 1, 2, 3 and 4.
+    DEFAULT_UNIT_CEILING = 4
+
+    @property
+    def unit_ceiling(self) -> int | None:
+        """An upper bound of every row's smallest unit known without computing it (or None).
+
+        With the default ``smallest_unit`` the unit is at most 4, so a size of 4 or more
+        passes the check against it whatever the unit is.
+        """
+        return self.DEFAULT_UNIT_CEILING if self._default_unit else None
+
     def smallest_unit(self) -> np.ndarray:
-        """Each row's smallest size of the smallest group that leaves error df ≥ 1."""
+        """Each row's smallest size of the smallest group that leaves error df ≥ 1.
+
+        Computed once per ``Rows`` (a fresh copy is returned each time).
+        """
+        if self._unit is None:
+            self._unit = self._smallest_unit()
+        return self._unit.copy()
+
+    def _smallest_unit(self) -> np.ndarray:
         if self._default_unit:
+            if self.count == 1:
+                # One row: the same tests at m = 1, 2, 3 with plain-int bookkeeping (and
+                # remembered: the sample-size guess starts from the test at the unit).
+                for m in (1, 2, 3):  # FTestDesign.smallest_unit
+                    if np.asarray(self.test_of_one(m).df2).reshape(-1)[0] >= 1:
+                        return np.array([m], dtype=np.int64)
+                return np.array([4], dtype=np.int64)
             out = np.full(self.count, 4, dtype=np.int64)
             undecided = np.ones(self.count, dtype=bool)
             for m in (1, 2, 3):  # FTestDesign.smallest_unit, row by row
@@ -410,8 +527,21 @@ class Rows:
                 if not undecided.any():
                     break
             return out
+        if self.count == 1:
+            return np.array([self.designs[0].smallest_unit()], dtype=np.int64)
         units = {id(d): d.smallest_unit() for d, _ in self._by_design()}
         return np.array([units[id(d)] for d in self.designs], dtype=np.int64)
+
+    def test_of_one(self, m: int) -> FTest:
+        """For a Rows of one: ``tests`` at smallest-group size ``m``, remembered.
+
+        The unit search asks for the tests at m = 1, 2, …, and the sample-size guess for
+        the one at the unit again; a test is a function of the (immutable) design and m.
+        """
+        test = self._tests_of_one.get(m)
+        if test is None:
+            test = self._tests_of_one[m] = self.tests(sizes_from_rows(m, self.ratios))
+        return test
 
     def power_at_noncentrality(self, lam: np.ndarray, sizes: np.ndarray, alpha: np.ndarray,
                                evaluation: Evaluation, mask: np.ndarray) -> np.ndarray:
