@@ -424,7 +424,7 @@ def test_adapter_row_hooks_are_used_once_per_group(client, monkeypatch):
         calls.append(("warnings", len(designs)))
         return [adapter.warnings(d, s) for d, s in zip(designs, sizes, strict=True)]
 
-    def effect_reports(designs, sizes):
+    def effect_reports(designs, sizes, noncentrality):
         calls.append(("effect", len(designs)))
         return [adapter.effect_report(d, s) for d, s in zip(designs, sizes, strict=True)]
 

@@ -155,10 +155,10 @@ def test_unexpected_error_is_logged_as_json_with_request_id_and_answered_without
     log = logging.getLogger("samplewright")
     log.addHandler(handler)
 
-    def broken(body):
+    def broken(operation, body, encoder):
         raise ZeroDivisionError("secret internal detail")
 
-    monkeypatch.setattr("samplewright.api.routes.operations.power", broken)
+    monkeypatch.setattr("samplewright.api.routes.operations.answer_text", broken)
     try:
         response = client.post("/v1/power", json=POWER_BODY, headers={"X-Request-ID": "trace-500"})
     finally:

@@ -159,10 +159,10 @@ def test_flask_debug_in_the_environment_changes_nothing(monkeypatch, assert_prob
     app = create_app(Settings())
     assert app.debug is False
 
-    def broken(body):
+    def broken(operation, body, encoder):
         raise RuntimeError("internal")
 
-    monkeypatch.setattr("samplewright.api.routes.operations.power", broken)
+    monkeypatch.setattr("samplewright.api.routes.operations.answer_text", broken)
     response = app.test_client().post("/v1/power", json=POWER_BODY)
     assert_problem(response, 500)
     assert "Traceback" not in response.get_data(as_text=True)

@@ -4,13 +4,14 @@ These are shared by the single-question routes and anything that answers many
 questions at once; they know nothing of Flask's request object. Each is the engine of
 ``batch.answer_many`` asked one question, so a single answer and the same question in a
 batch are produced by the same code. A response carries ``provenance`` (``provenance.py``).
+``answer_text`` gives the same response as JSON text, as the routes send it.
 """
 
 from __future__ import annotations
 
-from .batch import CAUTIONS, answer
+from .batch import CAUTIONS, answer, answer_text
 
-__all__ = ["CAUTIONS", "detectable_effect", "power", "sample_size"]
+__all__ = ["CAUTIONS", "answer_text", "detectable_effect", "power", "sample_size"]
 
 
 def power(body: dict) -> dict:

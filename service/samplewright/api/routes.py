@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import json
 import platform
 from dataclasses import dataclass
 from typing import Any
@@ -57,25 +58,37 @@ def _compute(operation):
     return jsonify(result)
 
 
+#: The planning answers' writer: the app's JSON settings (no NaN, compact, ASCII).
+_ANSWER_ENCODER = json.JSONEncoder(allow_nan=False, separators=(",", ":"))
+
+
+def _answer(operation: str, label: str):
+    """One planning question, written by the batch engine's writer (see ``operations``)."""
+    body = read_json_object(current_app.config["SETTINGS"].max_body_bytes)
+    with computation(label):
+        text = operations.answer_text(operation, body, _ANSWER_ENCODER)
+    return current_app.response_class(text, mimetype="application/json")
+
+
 @endpoint("/v1/power", "POST", "Power of a planned design at given group sizes.",
           schemas.PowerRequestSchema, schemas.PowerResponseSchema)
 def power():
     """Power of a planned design at given group sizes."""
-    return _compute(operations.power)
+    return _answer("power", "power")
 
 
 @endpoint("/v1/sample-size", "POST", "Smallest integer design reaching a target power.",
           schemas.SampleSizeRequestSchema, schemas.SampleSizeResponseSchema)
 def sample_size():
     """Smallest integer design reaching a target power."""
-    return _compute(operations.sample_size)
+    return _answer("sample-size", "sample_size")
 
 
 @endpoint("/v1/detectable-effect", "POST", "Smallest effect detectable with given sizes at a target power.",
           schemas.DetectableEffectRequestSchema, schemas.DetectableEffectResponseSchema)
 def detectable_effect():
     """Smallest effect detectable with given sizes at a target power."""
-    return _compute(operations.detectable_effect)
+    return _answer("detectable-effect", "detectable_effect")
 
 
 @endpoint("/v1/version", "GET", "Versions of the service and its numerical libraries.",
@@ -141,8 +154,6 @@ def metrics():
 
 # -- planning outputs: batch, curves and grids, protocol text (logic in batch/curves/report) -----
 
-import json  # noqa: E402
-
 from . import batch  # noqa: E402  (appended block; batch imports schemas, the adapters and the core)
 
 
@@ -155,9 +166,7 @@ def batch_questions():
     with batch.collector_paused():
         body = read_json_object(settings.max_batch_bytes)
         with computation("batch"):
-            result = batch.run_batch(body, max_items=settings.max_batch_items)
-        # UTF-8 rather than \u escapes: the same JSON values, a smaller body, a faster encoding.
-        text = json.dumps(result, allow_nan=False, separators=(",", ":"), ensure_ascii=False)
+            text = batch.run_batch(body, max_items=settings.max_batch_items)
     return current_app.response_class(text, mimetype="application/json")
 
 

@@ -9,7 +9,6 @@ from marshmallow import ValidationError, validates_schema
 
 from ...core.designs.base import is_equal, normalised_allocation
 from ...core.designs.one_way import OneWayAnova, eta_squared_from_f, f_from_eta_squared
-from ...core.vectorised import Rows
 from ..fields import Bounded, StrictFloat, StrictInteger, StrictSchema, choice
 from .common import (
     MAX_GROUPS,
@@ -181,9 +180,13 @@ class OneWayAnovaAdapter:
             report["range_of_means"] = float(np.ptp(design.means))
         return report
 
-    def effect_reports(self, designs: list, sizes: np.ndarray) -> list[dict]:
-        """``effect_report`` for many rows at once (one array pass; same numbers)."""
-        f = np.sqrt(Rows(designs).tests(sizes).noncentrality / sizes.sum(axis=1).astype(float))
+    def effect_reports(self, designs: list, sizes: np.ndarray, noncentrality: np.ndarray) -> list[dict]:
+        """``effect_report`` for many rows at once: f = √(λ / N) from each row's λ (same numbers).
+
+        ``noncentrality`` is the λ the power evaluation found at these sizes, the value
+        ``cohens_f_at`` computes again.
+        """
+        f = np.sqrt(noncentrality / sizes.sum(axis=1).astype(float))
         eta = eta_squared_from_f(f)
         out = []
         ranges: dict[int, float] = {}
