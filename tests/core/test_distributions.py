@@ -244,3 +244,33 @@ def test_large_df2_critical_value_agrees_with_mpmath():
             tail = mp.betainc(mp.mpf(5e7), mp.mpf(df1) / 2, 0, mp.mpf(1e8) / (df1 * mp.mpf(x) + mp.mpf(1e8)),
                               regularized=True)
         assert float(tail) == pytest.approx(alpha, rel=1e-12)  # mpmath 50-digit incomplete beta
+
+
+def _array_power_and_critical(alpha, df1, df2, nc):
+    """What a Rows of one evaluates: f_critical_value, then f_test_power, on one-element arrays."""
+    a, d1, d2, lam = (np.array([float(v)]) for v in (alpha, df1, df2, nc))
+    crit = np.atleast_1d(dist.f_critical_value(a, d1, d2))
+    power = np.atleast_1d(dist.f_test_power(a, d1, d2, lam, critical=crit))
+    return float.hex(power.item(0)), float.hex(crit.item(0))
+
+
+def test_scalar_f_power_equals_the_one_element_array_path():
+    """f_power_one gives the bits of f_critical_value + f_test_power on one-element arrays, every guard region too."""
+    # Source: the array functions of this module (independent of f_power_one's code path);
+    # tolerance 0 (float.hex), with the critical-value cache cold and warm.
+    rng = np.random.default_rng(41)
+    cases = [(0.05, 2.0, 30.0, 0.0), (0.05, 2.0, 30.0, 1e-25), (0.05, 2.0, 30.0, dist.TINY_NONCENTRALITY),
+             (0.05, 3.0, 40.0, dist.LARGE_NONCENTRALITY), (0.05, 3.0, 40.0, 2e6), (1e-10, 2.0, 2e7, 40.0),
+             (0.05, 3.0, dist.LARGE_DF2, 12.0), (0.01, 1.0, 1.0, 3.0), (0.3, 40.0, 17.0, 1e5),
+             (0.05, 4.0, 60.0, float("inf")), (0.05, 4.0, 60.0, float("nan"))]
+    for _ in range(3000):
+        cases.append((float(rng.choice([0.05, 0.01, 0.1, rng.uniform(1e-6, 0.5)])), float(rng.integers(1, 12)),
+                      float(rng.choice([rng.integers(1, 400), rng.integers(1, 10**7)])),
+                      float(rng.choice([rng.uniform(0, 60), 10 ** rng.uniform(-30, 8)]))))
+    for alpha, df1, df2, nc in cases:
+        for cold in (True, False):
+            if cold:
+                dist._CRITICAL_CACHE.clear()
+            power, crit = dist.f_power_one(alpha, df1, df2, nc)
+            assert type(power) is float and type(crit) is float
+            assert (float.hex(power), float.hex(crit)) == _array_power_and_critical(alpha, df1, df2, nc)

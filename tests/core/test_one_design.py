@@ -33,7 +33,7 @@ from samplewright.core.designs.repeated_measures import RepeatedMeasuresAnova, c
 from samplewright.core.designs.t_tests import OneSampleT, PairedT, TwoSampleT
 from samplewright.core.designs.welch import WelchAnova
 from samplewright.core.errors import InvalidParameter, NoSolution
-from samplewright.core.vectorised import Rows, rows_key
+from samplewright.core.vectorised import Rows, rows_key, sizes_from_rows
 
 ERRORS = (InvalidParameter, NoSolution)
 
@@ -387,3 +387,117 @@ def test_one_row_sizes_in_python_floats_equal_the_array_rounding():
         m = int(rng.choice([1, 2, 3, int(rng.integers(1, 10**7)), int(rng.integers(1, 2**52))]))
         expected = np.ceil(np.asarray(m, dtype=np.int64).reshape(-1, 1) * ratios * (1 - _RATIO_SLACK)).astype(np.int64)
         assert _bits(sizes_from_rows(m, ratios)) == _bits(expected)
+
+
+def _one_way_row(rng: random.Random, k: int) -> OneWayAnova:
+    """A one-way design with k groups, means of mixed sign and scale or an f, equal or not."""
+    alloc = None if rng.random() < 0.4 else [rng.choice([1, 1.1, 1.5, 2, 3, 7 / 3, rng.uniform(1, 9)]) for _ in range(k)]
+    if rng.random() < 0.35:
+        return OneWayAnova.from_f(rng.choice([rng.uniform(0.0, 1.5), 10 ** rng.uniform(-9, 1)]), k, alloc)
+    scale = 10 ** rng.uniform(-4, 4)
+    means = [rng.uniform(-1, 1) * scale + rng.choice([0.0, 50.0, -1e3]) for _ in range(k)]
+    return OneWayAnova.from_means(means, rng.uniform(0.1, 9) * scale, alloc)
+
+
+def test_one_way_scalar_test_equals_the_stacked_test():
+    """OneWayAnova.test_at_one equals test_at on a stack of one and on row i of a stack of many (k ≤ 7), else None."""
+    # Source: the array test_at of the same design on Rows stacks; tolerance 0 (float.hex).
+    # The sums in Python are numpy's row sums only for fewer than 8 terms (pairwise
+    # summation with eight accumulators starts at 8), so 1 to 10 groups are tried.
+    rng = random.Random(43)
+    checked = 0
+    for k in range(1, 11):
+        designs = [_one_way_row(rng, k) for _ in range(300)]
+        sizes = np.array([[rng.choice([1, 2, rng.randint(1, 90), rng.randint(1, 10**7)]) for _ in range(k)]
+                          for _ in designs], dtype=np.int64)
+        groups: dict = {}
+        for i, d in enumerate(designs):
+            groups.setdefault(rows_key(d), []).append(i)
+        for index in groups.values():
+            many = Rows([designs[i] for i in index]).tests(sizes[index])
+            for j, i in enumerate(index):
+                row = tuple(sizes[i].tolist())
+                got = designs[i].test_at_one(row)
+                if k > OneWayAnova.SEQUENTIAL_SUM_MAX:
+                    assert got is None
+                    continue
+                alone = Rows([designs[i]]).tests(sizes[i:i + 1])
+                for t, at in ((alone, 0), (many, j)):
+                    expected = tuple(float(np.asarray(v, dtype=float).reshape(-1)[at])
+                                     for v in (t.df1, t.df2, t.noncentrality))
+                    assert _bits(got) == _bits(expected)
+                checked += 1
+    assert checked > 2000
+    assert OneWayAnova.from_means([1.0, 2.0], 0.0).test_at_one((3, 3)) is None  # σ = 0: numpy decides
+
+
+def test_rows_of_one_in_python_numbers_equal_the_array_methods():
+    """A Rows of one's sizes_of_one, test_of_one, evaluate_one, evaluate_of_one and noncentrality_of_one equal row 0 of the array methods."""
+    # Source: Rows.tests / evaluate / noncentrality and sizes_from_rows on one-row arrays,
+    # for every design class; tolerance 0 (float.hex).
+    rng = random.Random(47)
+    fields = ("power", "df1", "df2", "noncentrality", "critical_value")
+    for cls in CLASSES:
+        for _ in range(60 if cls is not OneWayAnova else 600):
+            d = BUILDERS[cls](rng, rng.choice([2, 3, 4, 5, 6, 9]))
+            rows = Rows([d])
+            unit = int(rows.smallest_unit()[0])
+            m = rng.choice([unit, unit + 1, rng.randint(unit, 400), rng.randint(unit, 10**6)])
+            alpha = rng.choice([0.05, 0.01, rng.uniform(1e-4, 0.2)])
+            sizes = sizes_from_rows(m, rows.ratios)
+            assert rows.sizes_of_one(m) == tuple(sizes[0].tolist())
+            ev = rows.evaluate(sizes, np.array([alpha]))
+            expected = tuple(float(np.asarray(getattr(ev, f), dtype=float).reshape(-1)[0]) for f in fields)
+            assert _bits(rows.evaluate_one(rows.sizes_of_one(m), alpha)) == _bits(expected)
+            assert _bits(rows.evaluate_of_one(m, alpha)) == _bits((tuple(sizes[0].tolist()), expected))
+            lam = rows.noncentrality(sizes, np.array([alpha]))
+            assert _bits(rows.noncentrality_of_one(m, alpha)) == _bits(float(np.asarray(lam).reshape(-1)[0]))
+            if rows._has_test_at:
+                t = rows.tests(sizes)
+                got_sizes, got = rows.test_of_one(m)
+                assert got_sizes == tuple(sizes[0].tolist())
+                assert _bits(got) == _bits(tuple(float(np.asarray(v, dtype=float).reshape(-1)[0])
+                                                 for v in (t.df1, t.df2, t.noncentrality)))
+
+
+def test_rows_of_one_ratio_sum_and_maximum_are_numpys():
+    """Rows._one_ratios gives the ratios, numpy's row sum and numpy's maximum of a Rows of one, 1 to 12 groups."""
+    # Source: ratios.sum(axis=1) and ratios.max() on the Rows' own (1, k) array; tolerance 0.
+    rng = random.Random(53)
+    for _ in range(4000):
+        k = rng.randint(2, 12)
+        alloc = [rng.choice([1, 1.1, 1.5, 7 / 3, rng.uniform(1, 50), 10 ** rng.uniform(0, 6)]) for _ in range(k)]
+        rows = Rows([OneWayAnova.from_f(0.3, k, alloc)])
+        ratios, total, top = rows._one_ratios()
+        assert ratios == rows.ratios[0].tolist()
+        assert float.hex(total) == float.hex(float(rows.ratios.sum(axis=1)[0]))
+        assert float.hex(top) == float.hex(float(rows.ratios[0].max()))
+
+
+def test_smallest_unit_of_one_equals_the_generic_and_the_row_form():
+    """A Rows of one's smallest unit equals FTestDesign.smallest_unit and the row form's, for many allocations."""
+    # Source: FTestDesign.smallest_unit (the design's own test_at at m = 1, 2, 3) and
+    # Rows.smallest_unit over many rows; allocations near the rounding slack included.
+    rng = random.Random(59)
+    near_one = [1.0, 1 + 1e-12, 1 + 1e-9, 1 + 2e-9, 1.0000001, 1.5, 2.0]
+    designs = []
+    for _ in range(3000):
+        k = rng.randint(2, 9)
+        alloc = None if rng.random() < 0.2 else [rng.choice(near_one + [rng.uniform(1, 3)]) for _ in range(k)]
+        designs.append(OneWayAnova.from_f(rng.uniform(0.05, 0.8), k, alloc) if rng.random() < 0.5
+                       else OneWayAnova.from_means([rng.uniform(-2, 2) for _ in range(k)], 1.5, alloc))
+    for cls in CLASSES:  # every class with the default unit search
+        designs += [BUILDERS[cls](rng, rng.choice([2, 3, 4])) for _ in range(30)]
+    groups: dict = {}
+    for d in designs:
+        groups.setdefault(rows_key(d), []).append(d)
+    units = set()
+    for members in groups.values():
+        together = Rows(members).smallest_unit() if len(members) > 1 else None
+        for i, d in enumerate(members):
+            alone = int(Rows([d]).smallest_unit()[0])
+            assert alone == d.smallest_unit()
+            if together is not None:
+                assert alone == int(together[i])
+            units.add(alone)
+    assert {1, 2} <= units

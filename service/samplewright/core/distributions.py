@@ -285,6 +285,35 @@ def f_test_power(alpha, df1, df2, nc, critical=None):
     return _unwrap(power, scalar)
 
 
+def f_power_one(alpha: float, df1: float, df2: float, nc: float) -> tuple[float, float]:
+    """(power, critical value) of one level-α F test, in Python floats.
+
+    Exactly what ``f_critical_value`` and then ``f_test_power(..., critical=...)`` give
+    for one-element arrays (a single request's evaluations), without their array
+    conversions, which cost more than the Boost call itself. The critical value comes
+    from the same cache (filled by ``f_critical_value`` on a miss). Where every guard of
+    ``noncentral_f_sf`` is off (TINY_NONCENTRALITY < λ ≤ LARGE_NONCENTRALITY,
+    df2 ≤ LARGE_DF2) the tail is the same Boost ufunc on the same doubles, clipped to
+    [α, 1] by the same comparisons; anything else (NaN included) is handed to the array
+    functions. Checked bit for bit against them in tests/core/test_distributions.py.
+    """
+    crit = _CRITICAL_CACHE.get((alpha, df1, df2))
+    if crit is None:
+        crit = f_critical_value(np.array([alpha]), np.array([df1]), np.array([df2])).item(0)
+    if TINY_NONCENTRALITY < nc <= LARGE_NONCENTRALITY and df2 <= LARGE_DF2 and alpha > 0:
+        with np.errstate(all="ignore"):  # as in noncentral_f_sf
+            power = _boost_ncf_sf(np.array([crit]), np.array([df1]), np.array([df2]), np.array([nc])).item(0)
+        # np.minimum(np.maximum(power, α), 1): a NaN power stays NaN (α > 0 is not NaN)
+        if power < alpha:
+            power = alpha
+        if power > 1.0:
+            power = 1.0
+        return power, crit
+    power = f_test_power(np.array([alpha]), np.array([df1]), np.array([df2]), np.array([nc]),
+                         critical=np.array([crit]))
+    return power.item(0), crit
+
+
 # -- Student t: one-sided tests -------------------------------------------------------------
 #
 # A two-sided t test is the F test with df1 = 1 and λ = δ² (use f_test_power). A one-sided

@@ -18,9 +18,12 @@ as a ``Rows`` of one. ``detectable_effect`` is the row form with one row; the ot
 follow their row forms step by step for that one row with plain Python numbers for the
 bookkeeping (indices, error lists, the integer search: ``solve.smallest_integer_reaching_one``
 makes the probes the lockstep search makes), and every number they report comes from the
-same ``Rows`` evaluations on the same one-row arrays. So a question asked alone and the
-same question among many give the same numbers, bit for bit, at a fraction of the cost of
-the array bookkeeping (which exceeds the evaluations themselves for one row).
+``Rows`` one-row methods (``evaluate_one``, ``test_of_one``, …), which compute what the
+array evaluations give for that row with the same operations on the same doubles, in
+Python numbers where numpy's dispatch would cost more than the arithmetic. So a question
+asked alone and the same question among many give the same numbers, bit for bit, at a
+fraction of the cost of the array bookkeeping (which exceeds the evaluations themselves
+for one row).
 """
 
 from __future__ import annotations
@@ -312,31 +315,36 @@ def _size_guess(rows: Rows, lower: np.ndarray, alpha: np.ndarray, target: np.nda
 def _size_guess_one(rows: Rows, lower: int, alpha: float, target: float) -> int | None:
     """``_size_guess`` for a Rows of one, on scalars (its numpy calls cost more than the search steps they save).
 
-    The same operations on the same float64 values: the sums stay numpy reductions over the
-    row (their order of addition is numpy's), the special functions are the same ufuncs on
-    scalars, and division, addition and comparisons are IEEE operations in either form;
-    NumPy's floor keeps infinities. Wherever numpy's result would not be finite and
+    The same operations on the same float64 values: the sums over the row are numpy's
+    (``Rows.test_of_one`` and ``Rows._one_ratios`` say how their Python forms keep its
+    order of addition; the sum of integer sizes is exact either way), the special
+    functions are the same ufuncs on scalars, and division, addition and comparisons are
+    IEEE operations in either form. NumPy's floor keeps infinities and NaN, which the
+    array form then replaces by ``lower``; so does this, before flooring the finite
+    value exactly with math.floor. Wherever numpy's result would not be finite and
     positive the array form's fallback (``lower``) is returned directly. The test at m₀
     comes from ``Rows.test_of_one``: at the unit it is the one the unit search made.
     """
     if not rows.vectorised or not getattr(rows, "_default_evaluate", False):
         return None
-    at = lower if all(r == 1.0 for r in rows.ratios[0].tolist()) else _GUESS_REFERENCE
-    sizes = sizes_from_rows(at, rows.ratios)
-    test = rows.test_of_one(at)
-    units = int(sizes.sum()) / float(rows.ratios.sum(axis=1)[0])
-    per_unit = _first(test.noncentrality) / units
+    ratios, ratio_total, _ = rows._one_ratios()
+    at = lower if all(r == 1.0 for r in ratios) else _GUESS_REFERENCE
+    sizes, (df1, _, lam) = rows.test_of_one(at)
+    units = sum(sizes) / ratio_total  # ints: the exact total, then one division
+    per_unit = lam / units
     if not per_unit > 0:  # λ∞ / 0 or NaN: not finite
         return lower
-    df1 = _first(test.df1)
     with np.errstate(all="ignore"):  # as in _chi_square_noncentrality
         lam_inf = float(special.chndtrinc(special.chdtri(df1, alpha), df1, 1.0 - target))
-    if not (np.isfinite(lam_inf) and lam_inf > 0):  # the array form's NaN fallback
+    if not (math.isfinite(lam_inf) and lam_inf > 0):  # the array form's NaN fallback
         return lower
-    guess = np.floor(lam_inf / per_unit + _GUESS_OFFSET)
-    if not (np.isfinite(guess) and guess > lower):
+    x = lam_inf / per_unit + _GUESS_OFFSET
+    if not math.isfinite(x):  # np.floor(±inf, NaN) is not finite: the array form keeps lower
         return lower
-    return int(min(guess, 2.0**62))
+    guess = math.floor(x)  # the integer np.floor's double holds
+    if not guess > lower:
+        return lower
+    return min(guess, 2**62)
 
 
 def sample_size_rows(rows: Rows, *, alpha, target_power, dropout_rate=0.0,
@@ -485,9 +493,9 @@ def detectable_rows(rows: Rows, *, sizes: np.ndarray, alpha, target_power) -> tu
 #
 # Each function below is its row form run for one row: the same checks in the same order,
 # raising the error the row form would put in its one entry, and every reported number
-# taken from the same Rows calls on the same one-row arrays. Only the bookkeeping differs
-# (Python ints and floats instead of index arrays, masks and scatters), which for one row
-# costs more than the evaluations.
+# taken from the Rows one-row methods, which equal its array calls on one-row arrays. Only
+# the bookkeeping differs (Python ints and floats instead of index arrays, masks and
+# scatters), which for one row costs more than the evaluations.
 
 
 #: The last design asked about alone and its Rows of one: a request asks for the sizes
@@ -523,26 +531,12 @@ def _one(value, dtype=float):
     return arr.reshape(-1)[0].item()
 
 
-_FLOAT64 = np.dtype(np.float64)
-
-
-def _first(value) -> float:
-    """Entry 0 of an evaluation field, as the row form's float scatter holds it."""
-    if type(value) is np.ndarray and value.dtype is _FLOAT64 and value.ndim == 1:
-        return value.item(0)  # the usual case, without the conversions
-    return float(np.asarray(value, dtype=float).reshape(-1)[0])
-
-
-def _result(alpha: float, ev, sizes_row: np.ndarray) -> PowerResult:
-    """What ``PowerRows.result`` gives for a row evaluated as ``ev`` at ``sizes_row``."""
+def _result(alpha: float, ev: tuple, sizes_row: tuple[int, ...]) -> PowerResult:
+    """What ``PowerRows.result`` gives for a row whose ``Rows.evaluate_one`` is ``ev``."""
+    power, df1, df2, lam, crit = ev
     return PowerResult(
-        alpha=alpha,
-        power=_first(ev.power),
-        df_numerator=_first(ev.df1),
-        df_denominator=_first(ev.df2),
-        noncentrality=_first(ev.noncentrality),
-        critical_value=_first(ev.critical_value),
-        group_sizes=tuple(sizes_row.tolist()),
+        alpha=alpha, power=power, df_numerator=df1, df_denominator=df2, noncentrality=lam,
+        critical_value=crit, group_sizes=sizes_row,
     )
 
 
@@ -593,9 +587,9 @@ def power(design, *, sizes, alpha: float) -> PowerResult:
     ``power_rows`` for one row.
     """
     rows = _rows_of(design)
-    sizes = np.array(sizes, dtype=np.int64, order="C").reshape(1, rows.groups)
+    sizes = tuple(np.array(sizes, dtype=np.int64, order="C").reshape(1, rows.groups)[0].tolist())
     a = _one(alpha)
-    return _result(a, rows.evaluate(sizes, np.array([a])), sizes[0])
+    return _result(a, rows.evaluate_one(sizes, a), sizes)
 
 
 def sample_size(design, *, alpha: float, target_power: float, dropout_rate: float = 0.0,
@@ -606,12 +600,13 @@ def sample_size(design, *, alpha: float, target_power: float, dropout_rate: floa
     size under ``cap`` reaches it. ``sample_size_rows`` for one row: the same checks, the
     same start and probes of the integer search (``smallest_integer_reaching_one``), and
     the answer and the step below it are the search's own evaluations at those sizes
-    (the row form evaluates them again, with the same call on the same arrays).
+    (the row form evaluates them again, with the array calls ``Rows.evaluate_of_one``
+    equals).
     """
     rows = _rows_of(design)
     a, target, dropout = _one(alpha), _one(target_power), _one(dropout_rate)
     lower = int(rows.smallest_unit()[0])  # before the target check, as in the row form
-    m_cap = int(cap // float(rows.ratios[0].max()))
+    m_cap = int(cap // rows._one_ratios()[2])
     if not target > a:
         raise InvalidParameter("target_power", target, f"must exceed alpha ({a})")
     if m_cap < lower:
@@ -619,25 +614,22 @@ def sample_size(design, *, alpha: float, target_power: float, dropout_rate: floa
             "design.allocation", list(rows.designs[0].ratios),
             "the allocation leaves no feasible size under the cap",
         )
-    alpha_row = np.array([a])
-    lam_cap = rows.noncentrality(sizes_from_rows(m_cap, rows.ratios), alpha_row)
-    if not _first(lam_cap) > 0:
+    if not rows.noncentrality_of_one(m_cap, a) > 0:
         raise NoSolution(
             "design", "zero effect",
             "the effect is zero, so the power equals alpha at every size; no sample size reaches the target",
         )
 
-    seen: dict[int, tuple] = {}  # m → (sizes, Evaluation); evaluate is a function of (sizes, α)
+    seen: dict[int, tuple] = {}  # m → (sizes, evaluation); evaluate is a function of (sizes, α)
 
     def evaluation(m: int) -> tuple:
         got = seen.get(m)
         if got is None:
-            sizes = sizes_from_rows(m, rows.ratios)
-            got = seen[m] = (sizes, rows.evaluate(sizes, alpha_row))
+            got = seen[m] = rows.evaluate_of_one(m, a)
         return got
 
     def power_at(m: int) -> float:
-        return _first(evaluation(m)[1].power)
+        return evaluation(m)[1][0]
 
     start = _size_guess_one(rows, lower, a, target)
     m, found = smallest_integer_reaching_one(power_at, target=target, lower=lower, cap=m_cap, start=start)
@@ -656,14 +648,14 @@ def sample_size(design, *, alpha: float, target_power: float, dropout_rate: floa
         # division, product and ceiling on the same doubles.
         kept = 1.0 - dropout
         if kept > 0:
-            enrolment = tuple(math.ceil(n / kept * _KEEP) for n in sizes[0].tolist())
+            enrolment = tuple(math.ceil(n / kept * _KEEP) for n in sizes)
         else:  # a rate of 1 or more (the schemas refuse it): the row form's numpy, warnings and all
-            raw = sizes.astype(float) / (1.0 - np.array([dropout])).reshape(-1, 1)
+            raw = np.array([sizes], dtype=float) / (1.0 - np.array([dropout])).reshape(-1, 1)
             enrolment = tuple(np.ceil(raw * (1 - _DROPOUT_SLACK)).astype(np.int64)[0].tolist())
     return SampleSizeResult(
         target_power=target,
-        answer=_result(a, ev, sizes[0]),
-        one_step_smaller=_result(a, evaluation(m - 1)[1], evaluation(m - 1)[0][0]) if m > lower else None,
+        answer=_result(a, ev, sizes),
+        one_step_smaller=_result(a, evaluation(m - 1)[1], evaluation(m - 1)[0]) if m > lower else None,
         smallest_group=m,
         dropout_rate=dropout,
         enrolment_sizes=enrolment,

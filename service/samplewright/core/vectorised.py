@@ -40,7 +40,7 @@ import numpy as np
 
 from .designs.base import _RATIO_SLACK, Evaluation, FTest, FTestDesign
 from .designs.one_way import OneWayAnova
-from .distributions import f_critical_value, f_test_power
+from .distributions import f_critical_value, f_power_one, f_test_power
 
 _STACKABLE: set[type] = set()
 _EVALUATION_FIELDS = ("power", "df1", "df2", "noncentrality", "critical_value")
@@ -174,12 +174,28 @@ def sizes_from_rows(m, ratios: np.ndarray) -> np.ndarray:
     minimum.
     """
     if type(m) is int and 0 <= m < 2**53 and ratios.shape[0] == 1:
-        # One row's m as a plain int (the one-design planning path), in Python floats: m
-        # converts to a double exactly, as in the int64 column below, and the two products
-        # and the ceiling are the same IEEE operations, at a fraction of numpy's dispatch.
-        return np.array([[math.ceil(m * r * _SHRINK) for r in ratios[0].tolist()]], dtype=np.int64)
+        return np.array([_sizes_of_row(m, ratios[0].tolist())], dtype=np.int64)
     m = np.asarray(m, dtype=np.int64).reshape(-1, 1)
     return np.ceil(m * ratios * (1 - _RATIO_SLACK)).astype(np.int64)
+
+
+def _sizes_of_row(m: int, ratios: list[float]) -> list[int]:
+    """One row of ``sizes_from_rows`` for a plain int 0 ≤ m < 2**53, in Python numbers.
+
+    m converts to a double exactly, as in the int64 column of the array form, and the two
+    products and the ceiling are the same IEEE operations, at a fraction of numpy's dispatch.
+    """
+    return [math.ceil(m * r * _SHRINK) for r in ratios]
+
+
+def _first(value) -> float:
+    """Entry 0 of an evaluation or test field, as a float scatter of the row forms holds it."""
+    if type(value) is np.ndarray and value.dtype is _FLOAT64 and value.ndim == 1:
+        return value.item(0)  # the usual case, without the conversions
+    return float(np.asarray(value, dtype=float).reshape(-1)[0])
+
+
+_FLOAT64 = np.dtype(np.float64)
 
 
 class _Tests:
@@ -323,7 +339,8 @@ class Rows:
             self._stacked, self._stacked_names = self._build_stack()
         self._shared: list[tuple[object, np.ndarray]] | None = None
         self._unit: np.ndarray | None = None
-        self._tests_of_one: dict[int, FTest] = {}  # see test_of_one
+        self._tests_of_one: dict[int, tuple] = {}  # see test_of_one
+        self._one: tuple | None = None  # see _one_ratios
 
     # -- construction ----------------------------------------------------------------
 
@@ -514,7 +531,7 @@ class Rows:
                 # One row: the same tests at m = 1, 2, 3 with plain-int bookkeeping (and
                 # remembered: the sample-size guess starts from the test at the unit).
                 for m in (1, 2, 3):  # FTestDesign.smallest_unit
-                    if np.asarray(self.test_of_one(m).df2).reshape(-1)[0] >= 1:
+                    if self.test_of_one(m)[1][1] >= 1:
                         return np.array([m], dtype=np.int64)
                 return np.array([4], dtype=np.int64)
             out = np.full(self.count, 4, dtype=np.int64)
@@ -532,16 +549,92 @@ class Rows:
         units = {id(d): d.smallest_unit() for d, _ in self._by_design()}
         return np.array([units[id(d)] for d in self.designs], dtype=np.int64)
 
-    def test_of_one(self, m: int) -> FTest:
-        """For a Rows of one: ``tests`` at smallest-group size ``m``, remembered.
+    # -- a Rows of one in Python numbers (the one-design planning functions) -----------
+    #
+    # Row 0 of the array methods above, as Python ints and floats: for one row numpy's
+    # dispatch on one-element arrays costs more than the arithmetic. Each method says
+    # which array form it equals; tests/core/test_one_design.py checks them bit for bit.
 
-        The unit search asks for the tests at m = 1, 2, …, and the sample-size guess for
-        the one at the unit again; a test is a function of the (immutable) design and m.
+    def _one_ratios(self) -> tuple[list[float], float, float]:
+        """Row 0's ratios as floats, with their numpy sum and maximum (worked out once)."""
+        if self._one is None:
+            ratios = self.ratios[0].tolist()
+            if len(ratios) < 8 and all(r == r for r in ratios):
+                # numpy adds fewer than 8 terms one after the other from 0.0 (pairwise
+                # summation starts at 8); without NaN, max picks numpy's maximum.
+                total = 0.0
+                for r in ratios:
+                    total += r
+                top = max(ratios)
+            else:
+                total, top = float(self.ratios.sum(axis=1)[0]), float(self.ratios[0].max())
+            self._one = (ratios, total, top)
+        return self._one
+
+    def sizes_of_one(self, m: int) -> tuple[int, ...]:
+        """Row 0 of ``sizes_from_rows(m, ratios)`` for a plain int m, as a tuple of ints."""
+        if type(m) is int and 0 <= m < 2**53:
+            return tuple(_sizes_of_row(m, self._one_ratios()[0]))
+        return tuple(sizes_from_rows(m, self.ratios)[0].tolist())
+
+    def test_one(self, sizes: tuple[int, ...]) -> tuple[float, float, float]:
+        """(df1, df2, λ) of row 0 of ``tests`` at one row of sizes, as Python floats.
+
+        A stacked class may give ``test_at_one(sizes)``, promised equal to its ``test_at``
+        on a stack of rows (it may decline with None); otherwise ``tests`` is called.
         """
-        test = self._tests_of_one.get(m)
-        if test is None:
-            test = self._tests_of_one[m] = self.tests(sizes_from_rows(m, self.ratios))
-        return test
+        if self._stacked is not None:
+            scalar = getattr(self.designs[0], "test_at_one", None)
+            if scalar is not None:
+                found = scalar(sizes)
+                if found is not None:
+                    return found
+        test = self.tests(np.array([sizes], dtype=np.int64))
+        return _first(test.df1), _first(test.df2), _first(test.noncentrality)
+
+    def test_of_one(self, m: int) -> tuple[tuple[int, ...], tuple[float, float, float]]:
+        """For a Rows of one: (sizes, (df1, df2, λ)) at smallest-group size ``m``, remembered.
+
+        The unit search asks for the tests at m = 1, 2, …, the sample-size guess for the
+        one at the unit again and the search for those it probes; a test is a function of
+        the (immutable) design and m.
+        """
+        found = self._tests_of_one.get(m)
+        if found is None:
+            sizes = self.sizes_of_one(m)
+            found = self._tests_of_one[m] = (sizes, self.test_one(sizes))
+        return found
+
+    def evaluate_one(self, sizes: tuple[int, ...], alpha: float) -> tuple[float, float, float, float, float]:
+        """(power, df1, df2, λ, critical value): row 0 of ``evaluate`` for one row, as floats.
+
+        For the default F evaluation, ``_f_evaluate`` of one row is ``f_critical_value``
+        and ``f_test_power`` on one-element arrays, which ``f_power_one`` equals.
+        """
+        if self._default_evaluate:
+            return self._f_one(self.test_one(sizes), alpha)
+        ev = self.evaluate(np.array([sizes], dtype=np.int64), np.array([alpha]))
+        return tuple(_first(getattr(ev, f)) for f in _EVALUATION_FIELDS)
+
+    def evaluate_of_one(self, m: int, alpha: float) -> tuple[tuple[int, ...], tuple]:
+        """(sizes, ``evaluate_one``) at smallest-group size ``m``, reusing a remembered test."""
+        if self._default_evaluate:
+            sizes, test = self.test_of_one(m)
+            return sizes, self._f_one(test, alpha)
+        sizes = self.sizes_of_one(m)
+        return sizes, self.evaluate_one(sizes, alpha)
+
+    def noncentrality_of_one(self, m: int, alpha: float) -> float:
+        """Row 0 of ``noncentrality`` at smallest-group size ``m``."""
+        if self._default_evaluate:
+            return self.test_of_one(m)[1][2]
+        return self.evaluate_of_one(m, alpha)[1][3]
+
+    @staticmethod
+    def _f_one(test: tuple[float, float, float], alpha: float) -> tuple[float, float, float, float, float]:
+        df1, df2, lam = test
+        power, crit = f_power_one(alpha, df1, df2, lam)
+        return power, df1, df2, lam, crit
 
     def power_at_noncentrality(self, lam: np.ndarray, sizes: np.ndarray, alpha: np.ndarray,
                                evaluation: Evaluation, mask: np.ndarray) -> np.ndarray:

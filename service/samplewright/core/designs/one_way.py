@@ -115,6 +115,45 @@ class OneWayAnova(FTestDesign):
         df1 = np.full(total.shape, self.groups - 1.0)
         return FTest(df1=df1, df2=total - self.groups, noncentrality=lam)
 
+    #: Longest row ``test_at_one`` sums in Python: numpy's pairwise summation adds fewer
+    #: than 8 terms one after the other from 0.0, and 8 or more with eight accumulators.
+    SEQUENTIAL_SUM_MAX = 7
+
+    def test_at_one(self, sizes: tuple[int, ...]) -> tuple[float, float, float] | None:
+        """(df1, df2, λ) of ``test_at`` for one row of sizes, in Python floats (None: use test_at).
+
+        The formulas of ``test_at`` by the same IEEE operations in the same order, as the
+        row of a stack (``vectorised.Rows``) evaluates them: squares as products (numpy's
+        x**2 on arrays is x·x; Python's is pow), and each sum over the row added term by
+        term from 0.0, which is what numpy's reduction does for fewer than 8 terms. Longer
+        rows, and σ = 0 (numpy's inf or NaN with a warning, Python's ZeroDivisionError),
+        return None. A single request's test then costs about a microsecond, not the twenty
+        of numpy's dispatch on one-row arrays. Equality with a stack's ``test_at`` bit for
+        bit is checked in tests/core/test_one_design.py.
+        """
+        if len(sizes) > self.SEQUENTIAL_SUM_MAX:
+            return None
+        total = 0.0
+        for n in sizes:
+            total += n  # int + float: n converted exactly (sizes are far below 2**53)
+        if self.means is not None:
+            means = self.means.tolist()
+            weighted = 0.0
+            for n, mu in zip(sizes, means, strict=True):
+                weighted += n * mu
+            grand = weighted / total
+            spread = 0.0
+            for n, mu in zip(sizes, means, strict=True):
+                d = mu - grand
+                spread += n * (d * d)
+            variance = self.sd * self.sd
+            if variance == 0:
+                return None
+            lam = spread / variance
+        else:
+            lam = total * (self.cohens_f * self.cohens_f)
+        return self.groups - 1.0, total - self.groups, lam
+
     def cohens_f_at(self, sizes: np.ndarray) -> np.ndarray:
         """Cohen's f of the design at the given sizes: √(λ / N)."""
         sizes = np.asarray(sizes, dtype=float)
