@@ -234,6 +234,11 @@ class _Reports:
     def effects(self, entries: list) -> list[dict]:
         return self._many(entries, "effect_reports", "effect_report", self._effect, dict, True)
 
+    @staticmethod
+    def has_extras(entries: list) -> bool:
+        """Whether any entry's adapter adds ``details`` (most do not; then ``extras`` is skipped)."""
+        return any(getattr(adapter, "extras", None) is not None for adapter in {id(e[0]): e[0] for e in entries}.values())
+
     def extras(self, adapter, design, sizes: np.ndarray, alpha: float, key: tuple, out: dict) -> dict:
         hook = getattr(adapter, "extras", None)
         if hook is not None:
@@ -367,12 +372,14 @@ def _power_group(members: list[_Item], reports: _Reports) -> None:
     answers = list(answers)
     entries = [(a[0].adapter, a[0].design, a[1], tuple(a[7]), a[5]) for a in answers]
     warnings, effects = reports.warnings(entries), reports.effects(entries)
+    with_extras = reports.has_extras(entries)
     for (item, sizes, pw, df1, df2, lam, crit, size_list), warn, effect, entry in zip(
             answers, warnings, effects, entries, strict=True):
-        adapter, design, req = item.adapter, item.design, item.req
-        out = _common(adapter, req["alpha"], df1, df2, lam, crit, size_list, warn, {"power": pw})
-        out["effect"] = effect
-        item.head = reports.extras(adapter, design, sizes, req["alpha"], entry[3], out)
+        alpha = item.req["alpha"]
+        out = {"power": pw, "alpha": alpha, "design_type": item.adapter.type, "df_numerator": df1,
+               "df_denominator": df2, "noncentrality": lam, "critical_value": crit, "group_sizes": size_list,
+               "n_total": sum(size_list), "warnings": warn, "effect": effect}
+        item.head = reports.extras(item.adapter, item.design, sizes, alpha, entry[3], out) if with_extras else out
 
 
 def _sample_size_group(members: list[_Item], reports: _Reports) -> None:
@@ -413,31 +420,32 @@ def _sample_size_group(members: list[_Item], reports: _Reports) -> None:
                             enrol if dr > 0 else None, tp, dr))
     entries = [(a[0].adapter, a[0].design, np.asarray(a[6]), tuple(a[6]), a[4]) for a in answers]
     all_warnings, effects = reports.warnings(entries), reports.effects(entries)
+    with_extras = reports.has_extras(entries)
     for (item, pw, df1, df2, lam, crit, size_list, m, step, enrol, tp, dr), warnings, effect, entry in zip(
             answers, all_warnings, effects, entries, strict=True):
-        adapter, design, req = item.adapter, item.design, item.req
-        sizes, key = entry[2], entry[3]
-        if req["dropout_rate"] > 0.3:
+        req = item.req
+        if dr > 0.3:
             warnings.append(
-                f"A dropout rate of {req['dropout_rate']:g} is high: losses that depend on the treatment "
+                f"A dropout rate of {dr:g} is high: losses that depend on the treatment "
                 "bias the comparison, which enrolling more units does not fix."
             )
         first = size_list[0]
         out = {
-            **_common(adapter, req["alpha"], df1, df2, lam, crit, size_list, warnings),
+            "alpha": req["alpha"], "design_type": item.adapter.type, "df_numerator": df1, "df_denominator": df2,
+            "noncentrality": lam, "critical_value": crit, "group_sizes": size_list, "n_total": sum(size_list),
+            "warnings": warnings,
             "target_power": tp,
             "achieved_power": pw,
-            "n_per_group": first if all(v == first for v in size_list) else None,
+            "n_per_group": first if size_list.count(first) == len(size_list) else None,
             "smallest_group": m,
-            "one_step_smaller": None,
-            "enrolment": None,
+            "one_step_smaller": None if step is None else {
+                "group_sizes": step[0], "n_total": sum(step[0]), "power": step[1]},
+            "enrolment": None if enrol is None else {
+                "dropout_rate": dr, "group_sizes": enrol, "n_total": sum(enrol)},
             "effect": effect,
         }
-        if step is not None:
-            out["one_step_smaller"] = {"group_sizes": step[0], "n_total": sum(step[0]), "power": step[1]}
-        if enrol is not None:
-            out["enrolment"] = {"dropout_rate": dr, "group_sizes": enrol, "n_total": sum(enrol)}
-        item.head = reports.extras(adapter, design, sizes, req["alpha"], key, out)
+        item.head = reports.extras(item.adapter, item.design, entry[2], req["alpha"], entry[3], out) \
+            if with_extras else out
 
 
 def _detectable_group(members: list[_Item], reports: _Reports) -> None:

@@ -4,9 +4,12 @@
 options, getter closures) rather than on the fields themselves; a batch of ten thousand
 items pays that ten thousand times. ``FastLoader.load`` walks the same fields, calls each
 field's own ``deserialize`` (the same conversions and validators), runs the schema's own
-``@validates_schema`` methods, and returns the same dict. At the first sign of trouble (a
-field error, an unknown key, a cross-field rule failing, anything unusual) it hands the
-input to ``Schema.load`` itself, so every error, and every message in it, is marshmallow's.
+``@validates_schema`` methods, and returns the same dict. A field with a
+``fast_deserializer()`` (api/fields.py) is read by the function it returns instead: the
+same value for a plain input, a refusal for anything else. At the first sign of trouble (a
+field error or refusal, an unknown key, a cross-field rule failing, anything unusual) it
+hands the input to ``Schema.load`` itself, so every error, and every message in it, is
+marshmallow's.
 
 Schemas with hooks it does not reproduce (``pre_load``, ``post_load``, ``@validates``,
 dotted attributes, ``partial``/``many``) are always loaded by marshmallow.
@@ -16,8 +19,6 @@ from __future__ import annotations
 
 import io
 import pickle
-from collections.abc import Iterator
-from contextlib import contextmanager
 from contextvars import ContextVar
 from typing import Any
 
@@ -48,15 +49,26 @@ class _Shared:
 
     __slots__ = ("_buffer", "_pickler", "results")
 
-    def __init__(self) -> None:
+    def __init__(self, writer: tuple[io.BytesIO, _KeyPickler] | None = None) -> None:
         #: (loader, input key) → validated dict; the loader is held, so its id is not reused
         self.results: dict[tuple[FastLoader, bytes], dict] = {}
-        self._buffer = io.BytesIO()
-        self._pickler = _KeyPickler(self._buffer, protocol=4)
+        if writer is None:
+            buffer = io.BytesIO()
+            writer = (buffer, _KeyPickler(buffer, protocol=4))
+        self._buffer, self._pickler = writer
+
+    def release(self) -> tuple[io.BytesIO, _KeyPickler] | None:
+        """The buffer and pickler, for a later block (both are left empty after every key);
+        this block keys nothing more, should a reference to it outlive the block."""
+        writer = None if self._pickler is None else (self._buffer, self._pickler)
+        self._buffer = self._pickler = None
+        return writer
 
     def key(self, data: Any) -> bytes | None:
         """The input's pickle (see ``sharing``), or None for an input that is not plain values."""
         buffer, pickler = self._buffer, self._pickler
+        if pickler is None:  # released: the block is over
+            return None
         try:
             pickler.dump(data)
             return buffer.getvalue()
@@ -73,9 +85,14 @@ class _Shared:
 #: Within ``sharing()``: validated results of shareable loaders, by (loader, input key).
 _SHARED: ContextVar[_Shared | None] = ContextVar("samplewright_shared_loads", default=None)
 
+#: Key writers of finished blocks, reused by later ones: a pickler costs more to make than a
+#: single request's keys cost to write. Each block takes its own (list.pop and append are
+#: atomic), so concurrent or nested blocks never share one.
+_WRITERS: list[tuple[io.BytesIO, _KeyPickler]] = []
+_WRITERS_KEPT = 8
 
-@contextmanager
-def sharing() -> Iterator[None]:
+
+def sharing() -> _Sharing:
     """Within the block, a shareable loader validates each distinct input once.
 
     A batch repeats the same design in many items; its validated dict is then one object
@@ -87,11 +104,28 @@ def sharing() -> Iterator[None]:
     bit for bit), type for type and in the same order, so marshmallow would give both the same
     result and the same errors; only successful loads are kept.
     """
-    token = _SHARED.set(_Shared())
-    try:
-        yield
-    finally:
-        _SHARED.reset(token)
+    return _Sharing()
+
+
+class _Sharing:
+    """The ``sharing()`` block: a plain context manager, cheaper to enter than a generator-based
+    one (every single request enters one)."""
+
+    __slots__ = ("_shared", "_token")
+
+    def __enter__(self) -> None:
+        try:
+            shared = _Shared(_WRITERS.pop())
+        except IndexError:
+            shared = _Shared()
+        self._shared = shared
+        self._token = _SHARED.set(shared)
+
+    def __exit__(self, *exc_info) -> None:
+        _SHARED.reset(self._token)
+        writer = self._shared.release()
+        if writer is not None and len(_WRITERS) < _WRITERS_KEPT:
+            _WRITERS.append(writer)
 
 
 class FastLoader:
@@ -119,12 +153,20 @@ class FastLoader:
             # matter for a missing or null value; fields that keep it are called directly.
             direct = (type(field).deserialize is Field.deserialize and not field.pre_load
                       and not field.post_load)
+            # A field may offer its own fast deserializer (api/fields.py): the same result as
+            # deserialize for the plain values it accepts, a ValidationError for the rest.
+            maker = getattr(field, "fast_deserializer", None) if direct else None
+            fast = maker() if maker is not None else None
             # Looked up once here rather than per call (fields do not change after the schema
             # is built): the bound _deserialize, whether a missing value is an error, and the
             # load default with whether to call it.
             default = field.load_default
-            fields.append((key, target, field, direct, field._deserialize, tuple(field.validators),
-                           field.required, default, callable(default)))
+            rest = (field, direct, field._deserialize, tuple(field.validators), field.required, default,
+                    callable(default))
+            # Absent, an optional field of plain deserialize with no load default adds nothing:
+            # the loop then skips it without looking further (rest None).
+            quiet = direct and not field.required and default is missing
+            fields.append((key, target, fast, None if quiet else rest, rest))
         # marshmallow runs the collection validators first, then the per-item ones; with
         # many=False both receive the one item.
         validators = []
@@ -146,8 +188,16 @@ class FastLoader:
             extra = data.keys() - known
         out: dict[str, Any] = {}
         try:
-            for key, target, field, direct, deserialize, checks, required, default, call in fields:
-                raw = data.get(key, missing)
+            get = data.get
+            for key, target, fast, when_missing, rest in fields:
+                raw = get(key, missing)
+                if raw is missing:
+                    if when_missing is None:
+                        continue
+                elif fast is not None and raw is not None:  # None: allow_none and the null error
+                    out[target] = fast(raw)
+                    continue
+                field, direct, deserialize, checks, required, default, call = rest
                 if not direct or raw is None:
                     value = field.deserialize(raw, key, data)
                 elif raw is missing:  # as Field.deserialize: required → error, else the load default
@@ -157,7 +207,7 @@ class FastLoader:
                 else:
                     value = deserialize(raw, key, data)
                     for check in checks:
-                        if check(value) is False:  # marshmallow fails a validator that returns False
+                        if check(value) is False:  # False fails in marshmallow 3, not 4: left to marshmallow
                             return _DEFER
                 if value is not missing:
                     out[target] = value

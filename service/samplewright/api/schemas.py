@@ -13,7 +13,7 @@ from ..core.errors import show
 from ..core.planning import SIZE_CAP
 from .designs import ADAPTERS, SCHEMAS
 from .designs.common import MAX_GROUPS
-from .fastload import loader_for
+from .fastload import FastLoader, loader_for
 from .fields import Bounded, BoundedList, StrictFloat, StrictInteger, StrictSchema
 
 ALPHA_MIN, ALPHA_MAX = 1e-12, 0.5
@@ -24,13 +24,44 @@ DROPOUT_MAX = 0.9
 class DesignField(fields.Field):
     """``design``: an object whose ``type`` selects the schema that validates the rest."""
 
+    def __init__(self, **kwargs):
+        super().__init__(**kwargs)
+        #: type → the fast loader of its schema, kept here to spare a registry look-up per request
+        self._loaders: dict[str, FastLoader] = {}
+
     def _deserialize(self, value, attr, data, **kwargs):
         if not isinstance(value, dict):
             raise ValidationError(f"must be a JSON object with a 'type' (got {show(value)})")
         kind = value.get("type")
         if not isinstance(kind, str) or kind not in SCHEMAS:
             raise ValidationError({"type": [f"must be one of {sorted(SCHEMAS)} (got {show(kind)})"]})
-        return loader_for(SCHEMAS[kind], shareable=True).load(value)  # same result and errors as .load
+        return self._loader(kind).load(value)  # same result and errors as SCHEMAS[kind].load
+
+    def _loader(self, kind: str) -> FastLoader:
+        loader = self._loaders.get(kind)
+        if loader is None or loader.schema is not SCHEMAS[kind]:
+            loader = self._loaders[kind] = loader_for(SCHEMAS[kind], shareable=True)
+        return loader
+
+    def fast_deserializer(self):
+        """``deserialize`` for an exact dict whose ``type`` is an exact str naming a design
+        (see api/fields.py); anything else goes to marshmallow."""
+        if self.validators:  # the fast path below would skip them
+            return None
+        loaders, schemas = self._loaders, SCHEMAS
+
+        def fast(value):
+            if type(value) is dict:
+                kind = value.get("type")
+                if type(kind) is str:
+                    loader = loaders.get(kind)
+                    if loader is not None and loader.schema is schemas.get(kind):
+                        return loader.load(value)
+                    if kind in schemas:
+                        return self._loader(kind).load(value)
+            raise ValidationError("not a plain design; left to marshmallow")
+
+        return fast
 
 
 def alpha_field():
@@ -86,8 +117,8 @@ class _SizedRequest(_Request):
     def _one_size(self, data, original_data, **kwargs):
         # On the raw body, so that a missing size is reported beside other field errors
         # and an invalid one is not also reported as missing.
-        given = [name for name in ("n_per_group", "group_sizes") if name in original_data]
-        if len(given) != 1:
+        if ("n_per_group" in original_data) == ("group_sizes" in original_data):  # neither or both
+            given = [name for name in ("n_per_group", "group_sizes") if name in original_data]
             raise ValidationError(
                 f"give exactly one of n_per_group and group_sizes (got {' and '.join(given) or 'neither'})",
                 "n_per_group",

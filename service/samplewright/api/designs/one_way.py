@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import functools
 import math
+import sys
 
 import numpy as np
 from marshmallow import ValidationError, validates_schema
@@ -20,9 +22,86 @@ from .common import (
 )
 
 EFFECT_FIELDS = ("group_means", "cohens_f", "eta_squared", "min_range")
+_EFFECT_SET = frozenset(EFFECT_FIELDS)
 #: Largest Cohen's f accepted in any of its forms (power is 1 long before; beyond it the
 #: noncentrality can exceed what the power computation represents, and it returns NaN).
 MAX_COHENS_F = 10.0
+
+
+
+_FEW_UNITS = ("The smallest group has {} units: with so few, the F test's "
+              "robustness to non-normal errors and unequal variances is weak.")
+_F_WITH_UNEQUAL_SIZES = ("Cohen's f was given directly with unequal group sizes: it is taken to describe the "
+                         "design at these proportions (λ = N f²).")
+
+
+_LARGEST = sys.float_info.max
+
+
+@functools.cache
+def _equal_ratios(k: int) -> np.ndarray:
+    """normalised_allocation(None, k), built once per k: designs with equal allocation share
+    it, so it is read-only (nothing writes into a design's ratios; a write would raise)."""
+    ratios = np.ones(k)
+    ratios.setflags(write=False)
+    return ratios
+
+
+def _ratios(allocation, k: int) -> np.ndarray:
+    """normalised_allocation(allocation, k), the same array: for a validated allocation (a
+    list of k positive finite floats) each ratio over the smallest in Python, one division
+    each as numpy does it, instead of numpy's checks and dispatch on a few items. Anything
+    else, and a quotient that overflows (numpy would warn), is left to normalised_allocation.
+    """
+    if allocation is None:
+        return _equal_ratios(k)
+    if type(allocation) is list and len(allocation) == k:
+        for part in allocation:
+            if type(part) is not float or not 0.0 < part <= _LARGEST:
+                break
+        else:
+            smallest = min(allocation)
+            ratios = [part / smallest for part in allocation]
+            if max(ratios) <= _LARGEST:
+                return np.array(ratios)
+    return normalised_allocation(allocation, k)
+
+
+#: Most groups whose SD of means is summed in Python: numpy's reduction adds fewer than 8
+#: terms one after the other, as the loops below do; longer sums go pairwise, left to numpy.
+_SEQUENTIAL_SUM_MAX = 7
+
+
+def _sd_of_means(means: np.ndarray, ratios: np.ndarray) -> float:
+    """σ_m = √(Σ w_i (μ_i − Σ w_j μ_j)²), w = ratios / Σ ratios, as
+    ``np.sqrt(np.sum(w * (means - np.sum(w * means)) ** 2))`` gives it.
+
+    Up to _SEQUENTIAL_SUM_MAX groups with means within MEAN_BOUND and ratios within it (no
+    step can overflow, where numpy would warn and Python would not), in Python floats by the
+    same IEEE operations in the same order (x**2 on an array is x·x; a short sum adds term
+    by term): a few operations instead of numpy's dispatch on arrays of a few items.
+    Otherwise numpy. Bit-for-bit equality is checked in tests/api/test_designs_one_way.py.
+    """
+    values, parts = means.tolist(), ratios.tolist()
+    if 0 < len(values) <= _SEQUENTIAL_SUM_MAX and len(parts) == len(values) and max(parts) <= MEAN_BOUND:
+        total = 0.0
+        for part in parts:
+            total += part
+        weights, centre = [], 0.0
+        for part, value in zip(parts, values):  # noqa: B905 (lengths checked above)
+            if not -MEAN_BOUND <= value <= MEAN_BOUND:  # also refuses NaN
+                break
+            weight = part / total
+            weights.append(weight)
+            centre += weight * value
+        else:
+            spread = 0.0
+            for weight, value in zip(weights, values):  # noqa: B905 (lengths checked above)
+                gap = value - centre
+                spread += weight * (gap * gap)
+            return math.sqrt(spread)
+    weights = ratios / ratios.sum()
+    return float(np.sqrt(np.sum(weights * (means - np.sum(weights * means)) ** 2)))
 
 
 class OneWayAnovaDesignSchema(StrictSchema):
@@ -52,19 +131,21 @@ class OneWayAnovaDesignSchema(StrictSchema):
 
     @validates_schema
     def _one_effect(self, data, **kwargs):
-        given = [name for name in EFFECT_FIELDS if name in data]
-        if len(given) > 1:
+        # Runs on every request: plain membership tests, the list only for the message.
+        if len(_EFFECT_SET.intersection(data)) > 1:
+            given = [name for name in EFFECT_FIELDS if name in data]
             raise ValidationError(
                 f"give exactly one of {', '.join(EFFECT_FIELDS)} (got {', '.join(given)})", "_effect"
             )
-        if "group_means" in data and "groups" in data and data["groups"] != len(data["group_means"]):
+        means = "group_means" in data
+        if means and "groups" in data and data["groups"] != len(data["group_means"]):
             raise ValidationError(
                 f"must equal the number of group_means ({len(data['group_means'])}) (got {data['groups']})",
                 "groups",
             )
-        if any(name in data for name in ("group_means", "min_range")) and "sd" not in data:
+        if (means or "min_range" in data) and "sd" not in data:
             raise ValidationError("is required with group_means and with min_range", "sd")
-        groups = len(data["group_means"]) if "group_means" in data else data.get("groups")
+        groups = len(data["group_means"]) if means else data.get("groups")
         if groups is not None and "allocation" in data and len(data["allocation"]) != groups:
             raise ValidationError(
                 f"needs one ratio per group ({groups}) (got {len(data['allocation'])})", "allocation"
@@ -115,48 +196,56 @@ class OneWayAnovaAdapter:
         return k
 
     def build(self, fields: dict, sizes_count: int | None) -> OneWayAnova:
-        """The core design, for power and sample-size questions."""
-        given = [name for name in EFFECT_FIELDS if name in fields]
-        if not given:
+        """The core design, for power and sample-size questions.
+
+        The OneWayAnova constructors' designs (from_means, from_f), built here on the ratios
+        of ``_ratios`` (equal ones shared) and the means array the effect check made.
+        """
+        if _EFFECT_SET.isdisjoint(fields):
             raise ValidationError(f"give exactly one of {', '.join(EFFECT_FIELDS)}", "design")
         k = self.groups_of(fields, sizes_count)
         allocation = fields.get("allocation")
-        self._check_effect_size(fields, k, allocation)
-        if "group_means" in fields:
-            return OneWayAnova.from_means(fields["group_means"], fields["sd"], allocation)
-        if "cohens_f" in fields:
-            return OneWayAnova.from_f(fields["cohens_f"], k, allocation, sd=fields.get("sd"))
-        if "eta_squared" in fields:
-            return OneWayAnova.from_f(
-                f_from_eta_squared(fields["eta_squared"]), k, allocation, sd=fields.get("sd"),
-                source="eta_squared",
-            )
-        return OneWayAnova.from_min_range(fields["min_range"], fields["sd"], k, allocation)
-
-    @staticmethod
-    def _check_effect_size(fields: dict, k: int, allocation) -> None:
-        """Means and SD, or a range and SD, may not imply an f above MAX_COHENS_F."""
-        sd = fields.get("sd")
         if "group_means" in fields:
             means = np.asarray(fields["group_means"], dtype=float)
-            weights = normalised_allocation(allocation, k)
-            weights = weights / weights.sum()
-            sd_of_means = float(np.sqrt(np.sum(weights * (means - np.sum(weights * means)) ** 2)))
-            if sd_of_means > MAX_COHENS_F * sd:
-                raise ValidationError(
-                    f"imply Cohen's f = σ_m/σ above {MAX_COHENS_F:g}: the SD of the means is "
-                    f"{sd_of_means:.6g} with sd {sd:.6g}; the SD of the means may be at most "
-                    f"{MAX_COHENS_F:g}·sd = {MAX_COHENS_F * sd:.6g}",
-                    "design.group_means",
-                )
-        elif "min_range" in fields:
-            limit = MAX_COHENS_F * sd * math.sqrt(2.0 * k)
-            if fields["min_range"] > limit:
-                raise ValidationError(
-                    f"implies Cohen's f = Δ/(σ√(2k)) above {MAX_COHENS_F:g}: with sd {sd:.6g} and {k} groups "
-                    f"it may be at most {limit:.6g} (got {fields['min_range']:.6g})",
-                    "design.min_range",
-                )
+            ratios = _ratios(allocation, k)
+            self._check_means(means, ratios, fields.get("sd"))
+            return OneWayAnova(groups=len(means), ratios=ratios, means=means, sd=float(fields["sd"]),
+                               effect_source="group_means")
+        if "min_range" in fields:
+            self._check_range(fields, k)
+        if "cohens_f" in fields:
+            f, source = fields["cohens_f"], "cohens_f"
+        elif "eta_squared" in fields:
+            f, source = f_from_eta_squared(fields["eta_squared"]), "eta_squared"
+        else:
+            return OneWayAnova.from_min_range(fields["min_range"], fields["sd"], k, allocation)
+        sd = fields.get("sd")
+        return OneWayAnova(groups=k, ratios=_ratios(allocation, k), cohens_f=float(f),
+                           sd=None if sd is None else float(sd), effect_source=source)
+
+    @staticmethod
+    def _check_means(means: np.ndarray, ratios: np.ndarray, sd) -> None:
+        """Means and SD may not imply an f above MAX_COHENS_F."""
+        sd_of_means = _sd_of_means(means, ratios)
+        if sd_of_means > MAX_COHENS_F * sd:
+            raise ValidationError(
+                f"imply Cohen's f = σ_m/σ above {MAX_COHENS_F:g}: the SD of the means is "
+                f"{sd_of_means:.6g} with sd {sd:.6g}; the SD of the means may be at most "
+                f"{MAX_COHENS_F:g}·sd = {MAX_COHENS_F * sd:.6g}",
+                "design.group_means",
+            )
+
+    @staticmethod
+    def _check_range(fields: dict, k: int) -> None:
+        """A range and SD may not imply an f above MAX_COHENS_F."""
+        sd = fields.get("sd")
+        limit = MAX_COHENS_F * sd * math.sqrt(2.0 * k)
+        if fields["min_range"] > limit:
+            raise ValidationError(
+                f"implies Cohen's f = Δ/(σ√(2k)) above {MAX_COHENS_F:g}: with sd {sd:.6g} and {k} groups "
+                f"it may be at most {limit:.6g} (got {fields['min_range']:.6g})",
+                "design.min_range",
+            )
 
     def layout(self, fields: dict, sizes_count: int | None) -> Layout:
         """Groups, allocation and SD, for the detectable-effect question."""
@@ -166,8 +255,7 @@ class OneWayAnovaAdapter:
                 "is what detectable-effect solves for; leave the effect out of the design", f"design.{given[0]}"
             )
         k = self.groups_of(fields, sizes_count)
-        ratios = normalised_allocation(fields.get("allocation"), k)
-        probe = OneWayAnova(groups=k, ratios=ratios, cohens_f=0.0)
+        probe = OneWayAnova(groups=k, ratios=_ratios(fields.get("allocation"), k), cohens_f=0.0)
         return Layout(design=probe, sd=fields.get("sd"))
 
     def effect_report(self, design: OneWayAnova, sizes: np.ndarray) -> dict:
@@ -204,15 +292,17 @@ class OneWayAnovaAdapter:
         return out
 
     def warnings_rows(self, designs: list, sizes: np.ndarray) -> list[list[str]]:
-        """``warnings`` for many rows at once."""
+        """``warnings`` for many rows at once (the tests on sizes in one array pass)."""
         smallest = sizes.min(axis=1)
         unequal = (sizes != smallest[:, None]).any(axis=1)
         out = []
-        for i, design in enumerate(designs):
-            if smallest[i] >= 5 and not unequal[i]:
-                out.append([])
-            else:
-                out.append(self.warnings(design, sizes[i]))
+        for design, least, uneven in zip(designs, smallest.tolist(), unequal.tolist(), strict=True):
+            found = []
+            if least < 5:
+                found.append(_FEW_UNITS.format(least))
+            if uneven and design is not None and design.means is None:
+                found.append(_F_WITH_UNEQUAL_SIZES)
+            out.append(found)
         return out
 
     def detectable_report(self, layout: Layout, sizes: np.ndarray, noncentrality: float) -> dict:
@@ -229,13 +319,7 @@ class OneWayAnovaAdapter:
     def warnings(self, design, sizes: np.ndarray) -> list[str]:
         out = []
         if sizes.min() < 5:
-            out.append(
-                f"The smallest group has {int(sizes.min())} units: with so few, the F test's "
-                "robustness to non-normal errors and unequal variances is weak."
-            )
+            out.append(_FEW_UNITS.format(int(sizes.min())))
         if not is_equal(sizes / sizes.min()) and design is not None and design.means is None:
-            out.append(
-                "Cohen's f was given directly with unequal group sizes: it is taken to describe the "
-                "design at these proportions (λ = N f²)."
-            )
+            out.append(_F_WITH_UNEQUAL_SIZES)
         return out
