@@ -30,7 +30,6 @@ operations, so single and batch answers are equal bit for bit (tests/api/test_ba
 from __future__ import annotations
 
 import gc
-import json
 import logging
 from collections.abc import Iterator
 from contextlib import contextmanager, nullcontext
@@ -47,6 +46,7 @@ from .body import MAX_INTEGER_DIGITS
 from .designs import ADAPTERS
 from .fastload import loader_for, sharing
 from .fields import StrictSchema
+from .jsontext import BATCH_WRITER, Writer
 from .problems import Problem, cap_errors, core_problem, validation_problem
 from .provenance import caching as provenance_caching
 from .provenance import provenance, request_digest
@@ -114,16 +114,17 @@ class _Fixed:
         self.provenance = provenance(adapter.method_id, adapter.reference, {})
         self.texts: dict[int, tuple[str, str]] = {}
 
-    def text(self, encoder: json.JSONEncoder) -> tuple[str, str]:
-        """(text before the digest, text after it) of the fixed members, for ``encoder``."""
-        got = self.texts.get(id(encoder))
+    def text(self, writer: Writer) -> tuple[str, str]:
+        """(text before the digest, text after it) of the fixed members, for ``writer``."""
+        got = self.texts.get(id(writer))
         if got is None:
-            members = encoder.encode({"method": self.method, "assumptions": list(self.assumptions),
-                                      "cautions": list(CAUTIONS)})
+            encode = writer.encoder.encode
+            members = encode({"method": self.method, "assumptions": list(self.assumptions),
+                              "cautions": list(CAUTIONS)})
             marker = "\x00digest\x00"
-            prov = encoder.encode({**self.provenance, "request_digest": marker})
-            before, after = prov.split(encoder.encode(marker))
-            got = self.texts[id(encoder)] = ("," + members[1:-1] + ',"provenance":' + before + '"', '"' + after + "}")
+            prov = encode({**self.provenance, "request_digest": marker})
+            before, after = prov.split(encode(marker))
+            got = self.texts[id(writer)] = ("," + members[1:-1] + ',"provenance":' + before + '"', '"' + after + "}")
         return got
 
 
@@ -137,19 +138,14 @@ def _fixed_parts(adapter) -> _Fixed:
     return fixed
 
 
-#: Writes answers in the batch response: UTF-8 rather than \u escapes (the same JSON
-#: values, a smaller body, a faster encoding).
-BATCH_ENCODER = json.JSONEncoder(allow_nan=False, separators=(",", ":"), ensure_ascii=False)
-
-
-def result_text(item: _Item, encoder: json.JSONEncoder = BATCH_ENCODER) -> str:
+def result_text(item: _Item, writer: Writer = BATCH_WRITER) -> str:
     """``item.result`` as JSON text: the head encoded, the fixed members spliced in as text.
 
     The same members in the same order as ``item.result``; the fixed ones are encoded once
-    per adapter and encoder rather than once per answer (they are most of the bytes).
+    per adapter and writer rather than once per answer (they are most of the bytes).
     """
-    before, after = _fixed_parts(item.adapter).text(encoder)
-    return encoder.encode(item.head)[:-1] + before + item.digest + after
+    before, after = _fixed_parts(item.adapter).text(writer)
+    return writer.encode(item.head)[:-1] + before + item.digest + after
 
 
 # -- response pieces (shared by all three operations) -------------------------------------
@@ -199,40 +195,53 @@ class _Reports:
             groups.setdefault(id(entry[0]), []).append(j)
         return list(groups.values())
 
-    def _many(self, entries: list, plural: str, single: str, memo: dict, copy, with_lam: bool) -> list:
-        """The report of each entry, in order."""
+    def _many(self, entries: list, plural: str, single: str, memo: dict, copy, with_lam: bool,
+              sizes: np.ndarray | None, lam: np.ndarray | None) -> list:
+        """The report of each entry, in order (``sizes``, ``lam``: the group's arrays, if at hand)."""
         out: list = [None] * len(entries)
         for index in self._by_adapter(entries):
             adapter = entries[index[0]][0]
             hook = getattr(adapter, plural, None)
             if hook is not None:
-                designs = [entries[j][1] for j in index]
-                if len(index) == 1:  # a single request
-                    sizes = np.asarray(entries[index[0]][2]).reshape(1, -1)
+                whole = len(index) == len(entries)
+                designs = [entry[1] for entry in entries] if whole else [entries[j][1] for j in index]
+                if sizes is not None:
+                    rows = sizes if whole else sizes[index]
+                elif len(index) == 1:  # a single request
+                    rows = np.asarray(entries[index[0]][2]).reshape(1, -1)
                 else:
-                    sizes = np.stack([entries[j][2] for j in index])
+                    rows = np.stack([entries[j][2] for j in index])
                 if with_lam:
-                    got = hook(designs, sizes, np.array([entries[j][4] for j in index], dtype=float))
+                    if lam is not None:
+                        lams = lam if whole else lam[index]
+                    else:
+                        lams = np.array([entries[j][4] for j in index], dtype=float)
+                    got = hook(designs, rows, lams)
                 else:
-                    got = hook(designs, sizes)
-                for j, value in zip(index, got, strict=True):
-                    out[j] = value
+                    got = hook(designs, rows)
+                if whole:
+                    out = list(got)
+                    if len(out) != len(entries):
+                        raise ValueError(f"{plural} returned {len(out)} reports for {len(entries)} rows")
+                else:
+                    for j, value in zip(index, got, strict=True):
+                        out[j] = value
                 continue
             method = getattr(adapter, single)
             for j in index:
-                _, design, sizes, key, _lam = entries[j]
+                _, design, row, key, _lam = entries[j]
                 k = (id(adapter), id(design), key)
                 hit = memo.get(k)
                 if hit is None:
-                    hit = memo[k] = method(design, sizes)
+                    hit = memo[k] = method(design, row)
                 out[j] = copy(hit)
         return out
 
-    def warnings(self, entries: list) -> list[list]:
-        return self._many(entries, "warnings_rows", "warnings", self._warnings, list, False)
+    def warnings(self, entries: list, sizes: np.ndarray | None = None) -> list[list]:
+        return self._many(entries, "warnings_rows", "warnings", self._warnings, list, False, sizes, None)
 
-    def effects(self, entries: list) -> list[dict]:
-        return self._many(entries, "effect_reports", "effect_report", self._effect, dict, True)
+    def effects(self, entries: list, sizes: np.ndarray | None = None, lam: np.ndarray | None = None) -> list[dict]:
+        return self._many(entries, "effect_reports", "effect_report", self._effect, dict, True, sizes, lam)
 
     @staticmethod
     def has_extras(entries: list) -> bool:
@@ -362,16 +371,22 @@ def _power_group(members: list[_Item], reports: _Reports) -> None:
                 members[j].error = e
         if not ok:
             return
-        part = rows if len(ok) == rows.count else rows.take(ok)
-        got = planning.power_rows(part, sizes=sizes2d[ok], alpha=[members[j].req["alpha"] for j in ok])
+        whole = len(ok) == rows.count
+        part = rows if whole else rows.take(ok)
+        group_sizes = sizes2d if whole else sizes2d[ok]
+        got = planning.power_rows(part, sizes=group_sizes, alpha=[members[j].req["alpha"] for j in ok])
         answers = zip(
-            [members[j] for j in ok], sizes2d[ok], got.power.tolist(), got.df_numerator.tolist(),
-            got.df_denominator.tolist(), got.noncentrality.tolist(), got.critical_value.tolist(),
-            got.sizes.tolist(), strict=True,
+            members if whole else [members[j] for j in ok], group_sizes, got.power.tolist(),
+            got.df_numerator.tolist(), got.df_denominator.tolist(), got.noncentrality.tolist(),
+            got.critical_value.tolist(), got.sizes.tolist(), strict=True,
         )
     answers = list(answers)
     entries = [(a[0].adapter, a[0].design, a[1], tuple(a[7]), a[5]) for a in answers]
-    warnings, effects = reports.warnings(entries), reports.effects(entries)
+    if len(members) == 1:
+        warnings, effects = reports.warnings(entries), reports.effects(entries)
+    else:
+        warnings = reports.warnings(entries, got.sizes)
+        effects = reports.effects(entries, got.sizes, got.noncentrality)
     with_extras = reports.has_extras(entries)
     for (item, sizes, pw, df1, df2, lam, crit, size_list), warn, effect, entry in zip(
             answers, warnings, effects, entries, strict=True):
@@ -411,15 +426,26 @@ def _sample_size_group(members: list[_Item], reports: _Reports) -> None:
                 step.power.tolist(), got.has_smaller.tolist(), got.enrolment.tolist(),
                 got.target_power.tolist(), got.dropout_rate.tolist())
         answers = []
+        ok = []
         for j, item in enumerate(members):
             if errors[j] is not None:
                 item.error = errors[j]
                 continue
+            ok.append(j)
             (pw, df1, df2, lam, crit, sz, m, step_sz, step_pw, smaller, enrol, tp, dr) = (c[j] for c in cols)
             answers.append((item, pw, df1, df2, lam, crit, sz, m, (step_sz, step_pw) if smaller else None,
                             enrol if dr > 0 else None, tp, dr))
-    entries = [(a[0].adapter, a[0].design, np.asarray(a[6]), tuple(a[6]), a[4]) for a in answers]
-    all_warnings, effects = reports.warnings(entries), reports.effects(entries)
+    if len(members) == 1:
+        entries = [(a[0].adapter, a[0].design, np.asarray(a[6]), tuple(a[6]), a[4]) for a in answers]
+        all_warnings, effects = reports.warnings(entries), reports.effects(entries)
+    else:
+        whole = len(ok) == len(members)
+        group_sizes = a.sizes if whole else a.sizes[ok]
+        lams = a.noncentrality if whole else a.noncentrality[ok]
+        entries = [(b[0].adapter, b[0].design, row, tuple(b[6]), b[4])
+                   for b, row in zip(answers, group_sizes, strict=True)]
+        all_warnings = reports.warnings(entries, group_sizes)
+        effects = reports.effects(entries, group_sizes, lams)
     with_extras = reports.has_extras(entries)
     for (item, pw, df1, df2, lam, crit, size_list, m, step, enrol, tp, dr), warnings, effect, entry in zip(
             answers, all_warnings, effects, entries, strict=True):
@@ -562,9 +588,9 @@ def answer(operation: str, body: dict) -> dict:
     return _one(operation, body).result
 
 
-def answer_text(operation: str, body: dict, encoder: json.JSONEncoder) -> str:
+def answer_text(operation: str, body: dict, writer: Writer) -> str:
     """One request: the response as JSON text (``result_text``), or the exception."""
-    return result_text(_one(operation, body), encoder)
+    return result_text(_one(operation, body), writer)
 
 
 # -- POST /v1/batch ---------------------------------------------------------------------------
@@ -687,12 +713,12 @@ def run_batch(body: dict, *, max_items: int) -> str:
     for operation, index in by_operation.items():
         for i, item in zip(index, answer_many(operation, [bodies[i] for i in index]), strict=True):
             answered[i] = item
-    encode = BATCH_ENCODER.encode
+    encode, string = BATCH_WRITER.encode, BATCH_WRITER.string
     out = []
     failed = 0
     for item_id, item in zip(ids, answered, strict=True):
         if item.error is None:
-            out.append(f'{{"id":{encode(item_id)},"status":200,"result":{result_text(item)}}}')
+            out.append(f'{{"id":{string(item_id)},"status":200,"result":{result_text(item)}}}')
         else:
             problem = problem_body(item.error)
             out.append(encode({"id": item_id, "status": problem["status"], "problem": problem}))

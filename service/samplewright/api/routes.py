@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 import platform
 from dataclasses import dataclass
 from typing import Any
@@ -15,6 +14,7 @@ from .._version import __version__
 from ..observability import computation
 from . import operations, schemas
 from .body import read_json_object
+from .jsontext import ANSWER_WRITER
 
 bp = Blueprint("api", __name__)
 
@@ -58,15 +58,11 @@ def _compute(operation):
     return jsonify(result)
 
 
-#: The planning answers' writer: the app's JSON settings (no NaN, compact, ASCII).
-_ANSWER_ENCODER = json.JSONEncoder(allow_nan=False, separators=(",", ":"))
-
-
 def _answer(operation: str, label: str):
     """One planning question, written by the batch engine's writer (see ``operations``)."""
     body = read_json_object(current_app.config["SETTINGS"].max_body_bytes)
     with computation(label):
-        text = operations.answer_text(operation, body, _ANSWER_ENCODER)
+        text = operations.answer_text(operation, body, ANSWER_WRITER)
     return current_app.response_class(text, mimetype="application/json")
 
 
