@@ -20,6 +20,8 @@ from samplewright.api.designs import SCHEMAS
 from samplewright.api.fastload import FastLoader, _Shared, sharing
 from samplewright.api.schemas import POWER_REQUEST, SAMPLE_SIZE_REQUEST
 
+from .test_fields_fast import _typed  # value with the type of every part spelled out
+
 
 class _Raw(Schema):
     """Keeps what it is given, so that any confusion of inputs shows in the result."""
@@ -39,15 +41,6 @@ class _Text(str):
 #: Values that compare equal (or print alike) in some sense but are not the same input.
 _CONFUSABLE = [5, 5.0, True, 1, 1.0, False, 0, 0.0, -0.0, "5", "5.0", "true", None, [5], [5.0], [True], (5,),
                {"x": 5}, {"x": 5.0}, {"x": True}, b"5", [], {}, "", 10**30, float(10**30)]
-
-
-def _typed(value):
-    """value with the type of every part spelled out, so 5 and 5.0 (or -0.0 and 0.0) compare unequal."""
-    if isinstance(value, dict):
-        return ("dict", [(_typed(k), _typed(v)) for k, v in value.items()])
-    if isinstance(value, list | tuple):
-        return (type(value).__name__, [_typed(v) for v in value])
-    return (type(value).__name__, repr(value))
 
 
 def test_sharing_never_confuses_5_and_5_0_and_true_and_the_string():

@@ -64,12 +64,12 @@ def _interleaved(fns: dict, repeat: int = 7) -> tuple[dict, dict, dict]:
 def _stages(payload: str, repeat: int = 5) -> dict:
     """Best seconds of each stage of the table route, called directly (where the time goes)."""
     from samplewright.api import table
+    from samplewright.api.body import parse_json_text
 
     best: dict[str, float] = {}
-    raw = payload.encode("utf-8")
     for _ in range(repeat):
         t0 = time.perf_counter()
-        body = table._parse_table_text(raw, payload)  # the route's reader, without the request object
+        body = parse_json_text(payload)  # the route's reader, without the request object
         t1 = time.perf_counter()
         result = table.run_table(body)
         t2 = time.perf_counter()

@@ -52,17 +52,6 @@ def _float(text: str) -> float | TinyNumber:
     return value
 
 
-def _check_nesting(data: Any) -> None:
-    """Refuse arrays and objects nested more than MAX_NESTING deep (iteratively)."""
-    stack = [(data, 1)]
-    while stack:
-        node, depth = stack.pop()
-        children = node.values() if isinstance(node, dict) else node
-        if depth > MAX_NESTING:
-            raise ValueError(f"nesting is too deep (at most {MAX_NESTING} levels of arrays and objects)")
-        stack.extend((child, depth + 1) for child in children if isinstance(child, dict | list))
-
-
 def _no_duplicates(pairs: list[tuple[str, Any]]) -> dict[str, Any]:
     out = dict(pairs)
     if len(out) == len(pairs):

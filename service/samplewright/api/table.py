@@ -36,7 +36,7 @@ How a table is answered:
 
 Speed (the profile of 100,000 power rows): the critical value is computed once per distinct
 (α, df1, df2) (``vectorised._f_evaluate``); the body is read by the C JSON parser where that
-cannot differ from the strict reader (``read_table_body``); numbers are written, and
+cannot differ from the strict reader (``body.parse_json_text``); numbers are written, and
 digested, by array operations that give the JSON encoder's text character for character
 (``_numbers_text``: Python's float repr cost about 0.7 µs a number, as much as the
 noncentral F tail), columns with repeated values one distinct value at a time. What remains
@@ -62,15 +62,7 @@ from ..core.designs.one_way import OneWayAnova
 from ..core.errors import show
 from ..core.vectorised import Rows
 from .batch import CAUTIONS
-from .body import (
-    MAX_INTEGER_DIGITS,
-    MAX_NESTING,
-    _check_nesting,
-    _no_duplicates,
-    _reject_constant,
-    parse_json_text,
-    read_json_object,
-)
+from .body import read_json_object
 from .designs.one_way import OneWayAnovaAdapter, OneWayAnovaDesignSchema
 from .fields import Bounded, StrictInteger, StrictSchema, choice
 from .problems import Problem, validation_problem
@@ -132,51 +124,10 @@ _INTEGER = {name for name, field in FIELDS.items() if isinstance(field, StrictIn
 
 # -- reading the body ---------------------------------------------------------------------------
 
-#: Digits become '0' and 'E' becomes 'e', and signs go (no sign stands inside a literal), so
-#: that two substring searches find every literal the C parser and the strict reader's hooks
-#: could read differently.
-_LITERAL_SHAPE = bytes.maketrans(b"123456789E", b"000000000e")
-_LONG_DIGIT_RUN = b"0" * (MAX_INTEGER_DIGITS + 1)
-
-
-def _needs_strict_reader(raw: bytes) -> bool:
-    """Whether the text has a literal the C parser and the strict reader's hooks could read
-    differently: an exponent of three or more digits (a nonzero number too small for a double
-    is kept as text by the reader and read as 0 by the C parser), or a run of more than
-    MAX_INTEGER_DIGITS digits (an integer the reader refuses, or a decimal too small for a
-    double written without an exponent). A match inside a string only costs the slower reader."""
-    shape = raw.translate(_LITERAL_SHAPE, b"+-")
-    return _LONG_DIGIT_RUN in shape or b"e000" in shape
-
-
 def read_table_body(limit: int) -> dict:
-    """The body as ``body.read_json_object`` reads it (same checks, same problems), faster.
-
-    A table is hundreds of thousands of number literals, and the strict reader's Python
-    hooks per literal cost as much as the computation. Where the text has no literal on
-    which the C parser and those hooks could disagree (``_needs_strict_reader``), the C
-    parser reads it, still refusing NaN, Infinity and duplicate keys and checking the
-    nesting; otherwise the strict reader does.
-    """
-    return read_json_object(limit, _parse_table_text)
-
-
-def _parse_table_text(raw: bytes, text: str):
-    if _needs_strict_reader(raw):
-        return parse_json_text(text)
-    try:
-        data = _C_DECODER.decode(text)
-    except RecursionError:
-        raise ValueError(f"nesting is too deep (at most {MAX_NESTING} levels of arrays and objects)") from None
-    # Fewer brackets than MAX_NESTING cannot nest deeper (a table has one per column): the walk
-    # over every number is needed only otherwise.
-    if isinstance(data, dict | list) and raw.count(b"[") + raw.count(b"{") > MAX_NESTING:
-        _check_nesting(data)
-    return data
-
-
-#: json.loads with these hooks builds a decoder on every call; this one is built once.
-_C_DECODER = json.JSONDecoder(parse_constant=_reject_constant, object_pairs_hook=_no_duplicates)
+    """The body, read by ``body.read_json_object`` like every route's (the strict reader reads a
+    table's number literals with the C parser unless one could be read differently)."""
+    return read_json_object(limit)
 
 
 # -- validation ---------------------------------------------------------------------------------
