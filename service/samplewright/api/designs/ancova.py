@@ -14,6 +14,7 @@ from .common import (
     MAX_GROUPS,
     Layout,
     allocation_field,
+    group_count,
     means_field,
     sd_field,
 )
@@ -90,29 +91,11 @@ class OneWayAncovaAdapter:
         "The covariates are treated as fixed: with random covariates the power is slightly lower, most at small N.",
     )
 
-    @staticmethod
-    def _groups(fields: dict, sizes_count: int | None) -> int:
-        if "group_means" in fields:
-            k = len(fields["group_means"])
-        elif "groups" in fields:
-            k = fields["groups"]
-        elif "allocation" in fields:
-            k = len(fields["allocation"])
-        elif sizes_count is not None:
-            k = sizes_count
-        else:
-            raise ValidationError("is required (or give group_means, allocation or group_sizes)", "design.groups")
-        if k < 2:
-            raise ValidationError(f"needs at least 2 groups to compare (got {k} size)", "group_sizes")
-        if sizes_count is not None and sizes_count != k:
-            raise ValidationError(f"needs one size per group ({k}) (got {sizes_count})", "group_sizes")
-        return k
-
     def build(self, fields: dict, sizes_count: int | None) -> OneWayAncova:
         """The core design, for power and sample-size questions."""
         if "group_means" not in fields:
             raise ValidationError("is required (the expected adjusted mean of every group)", "design.group_means")
-        self._groups(fields, sizes_count)
+        group_count(fields, sizes_count)
         design = OneWayAncova.from_means(
             fields["group_means"], fields["sd"], fields["covariate_r2"], fields["covariates"], fields.get("allocation")
         )
@@ -133,7 +116,7 @@ class OneWayAncovaAdapter:
             raise ValidationError(
                 "is what detectable-effect solves for; leave the effect out of the design", "design.group_means"
             )
-        k = self._groups(fields, sizes_count)
+        k = group_count(fields, sizes_count)
         ratios = normalised_allocation(fields.get("allocation"), k)
         probe = OneWayAncova(
             groups=k, ratios=ratios, means=np.zeros(k), sd=1.0,

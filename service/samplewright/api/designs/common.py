@@ -63,3 +63,26 @@ def allocation_field(min_items: int = 2, max_items: int = MAX_GROUPS) -> Bounded
             f"Sizes are n_i = ceil(m·r_i/min r); the largest ratio is at most {MAX_ALLOCATION_SPREAD:g}× the smallest."
         },
     )
+
+
+def group_count(fields: dict, sizes_count: int | None, most: int | None = None) -> int:
+    """k from the design fields (group_means, groups, allocation) or else the number of group
+    sizes: at least 2 (at most ``most`` when given) and equal to the number of sizes, if any."""
+    if "group_means" in fields:
+        k = len(fields["group_means"])
+    elif "groups" in fields:
+        k = fields["groups"]
+    elif "allocation" in fields:
+        k = len(fields["allocation"])
+    elif sizes_count is not None:
+        k = sizes_count
+    else:
+        raise ValidationError("is required (or give group_means, allocation or group_sizes)", "design.groups")
+    if most is not None:
+        if not 2 <= k <= most:
+            raise ValidationError(f"must have between 2 and {most} entries (got {k})", "group_sizes")
+    elif k < 2:  # only group_sizes can imply a single group; the design fields need two
+        raise ValidationError(f"needs at least 2 groups to compare (got {k} size)", "group_sizes")
+    if sizes_count is not None and sizes_count != k:
+        raise ValidationError(f"needs one size per group ({k}) (got {sizes_count})", "group_sizes")
+    return k

@@ -17,6 +17,7 @@ from .common import (
     MEAN_BOUND,
     Layout,
     allocation_field,
+    group_count,
     means_field,
     sd_field,
 )
@@ -179,21 +180,7 @@ class OneWayAnovaAdapter:
 
     def groups_of(self, fields: dict, sizes_count: int | None) -> int:
         """k from the design fields, or from the number of group sizes."""
-        if "group_means" in fields:
-            k = len(fields["group_means"])
-        elif "groups" in fields:
-            k = fields["groups"]
-        elif "allocation" in fields:
-            k = len(fields["allocation"])
-        elif sizes_count is not None:
-            k = sizes_count
-        else:
-            raise ValidationError("is required (or give group_means, allocation or group_sizes)", "design.groups")
-        if k < 2:  # only group_sizes can imply a single group; the design fields need two
-            raise ValidationError(f"needs at least 2 groups to compare (got {k} size)", "group_sizes")
-        if sizes_count is not None and sizes_count != k:
-            raise ValidationError(f"needs one size per group ({k}) (got {sizes_count})", "group_sizes")
-        return k
+        return group_count(fields, sizes_count)
 
     def build(self, fields: dict, sizes_count: int | None) -> OneWayAnova:
         """The core design, for power and sample-size questions.

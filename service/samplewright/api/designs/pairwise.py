@@ -10,7 +10,7 @@ from marshmallow import ValidationError, validates_schema
 from ...core.designs.pairwise import ADJUSTMENTS, PairwiseComparisons
 from ...core.distributions import f_critical_value
 from ..fields import Bounded, StrictInteger, StrictSchema, choice
-from .common import Layout, allocation_field, means_field, sd_field
+from .common import Layout, allocation_field, group_count, means_field, sd_field
 
 EFFECT_FIELDS = ("group_means",)
 #: Most groups: all pairs of 30 groups are 435 comparisons, each reported.
@@ -91,21 +91,7 @@ class PairwiseComparisonsAdapter:
 
     def groups_of(self, fields: dict, sizes_count: int | None) -> int:
         """k from the design fields, or from the number of group sizes."""
-        if "group_means" in fields:
-            k = len(fields["group_means"])
-        elif "groups" in fields:
-            k = fields["groups"]
-        elif "allocation" in fields:
-            k = len(fields["allocation"])
-        elif sizes_count is not None:
-            k = sizes_count
-        else:
-            raise ValidationError("is required (or give group_means, allocation or group_sizes)", "design.groups")
-        if not 2 <= k <= MAX_PAIRWISE_GROUPS:
-            raise ValidationError(f"must have between 2 and {MAX_PAIRWISE_GROUPS} entries (got {k})", "group_sizes")
-        if sizes_count is not None and sizes_count != k:
-            raise ValidationError(f"needs one size per group ({k}) (got {sizes_count})", "group_sizes")
-        return k
+        return group_count(fields, sizes_count, MAX_PAIRWISE_GROUPS)
 
     def build(self, fields: dict, sizes_count: int | None) -> PairwiseComparisons:
         """The core design, for power and sample-size questions."""
