@@ -151,20 +151,11 @@ def result_text(item: _Item, writer: Writer = BATCH_WRITER) -> str:
 # -- response pieces (shared by all three operations) -------------------------------------
 
 
-def _common(adapter, alpha, df1, df2, lam, crit, sizes: list, warnings: list, first: dict | None = None) -> dict:
-    out = first or {}
-    out.update({
-        "alpha": alpha,
-        "design_type": adapter.type,
-        "df_numerator": df1,
-        "df_denominator": df2,
-        "noncentrality": lam,
-        "critical_value": crit,
-        "group_sizes": sizes,
-        "n_total": sum(sizes),
-        "warnings": warnings,
-    })
-    return out
+def _common(adapter, alpha, df1, df2, lam, crit, sizes: list, warnings: list) -> dict:
+    """The members every answer has, in the order the power and sample-size heads write them too."""
+    return {"alpha": alpha, "design_type": adapter.type, "df_numerator": df1, "df_denominator": df2,
+            "noncentrality": lam, "critical_value": crit, "group_sizes": sizes, "n_total": sum(sizes),
+            "warnings": warnings}
 
 
 class _Reports:
@@ -346,6 +337,26 @@ def _sizes_rows(rows: Rows, members: list[_Item]) -> tuple[np.ndarray, list]:
     return sizes, errors
 
 
+def _sized_rows(members: list[_Item]) -> tuple[Rows, np.ndarray, list[int]] | None:
+    """The Rows, sizes (rows, k) and member indices of the members whose sizes are valid.
+
+    A member whose sizes are refused gets its error; None when no member is left.
+    """
+    rows = Rows([it.design for it in members])
+    sizes2d, errors = _sizes_rows(rows, members)
+    ok = []
+    for j, e in enumerate(errors):
+        if e is None:
+            ok.append(j)
+        else:
+            members[j].error = e
+    if not ok:
+        return None
+    if len(ok) == rows.count:
+        return rows, sizes2d, ok
+    return rows.take(ok), sizes2d[ok], ok
+
+
 # -- stage 3 and 4: computation and reports, per operation -------------------------------------
 
 
@@ -361,19 +372,11 @@ def _power_group(members: list[_Item], reports: _Reports) -> None:
         answers = [(item, sizes, r.power, r.df_numerator, r.df_denominator, r.noncentrality,
                     r.critical_value, list(r.group_sizes))]
     else:
-        rows = Rows([it.design for it in members])
-        sizes2d, errors = _sizes_rows(rows, members)
-        ok = []
-        for j, e in enumerate(errors):
-            if e is None:
-                ok.append(j)
-            else:
-                members[j].error = e
-        if not ok:
+        sized = _sized_rows(members)
+        if sized is None:
             return
-        whole = len(ok) == rows.count
-        part = rows if whole else rows.take(ok)
-        group_sizes = sizes2d if whole else sizes2d[ok]
+        part, group_sizes, ok = sized
+        whole = len(ok) == len(members)
         got = planning.power_rows(part, sizes=group_sizes, alpha=[members[j].req["alpha"] for j in ok])
         answers = zip(
             members if whole else [members[j] for j in ok], group_sizes, got.power.tolist(),
@@ -489,19 +492,12 @@ def _detectable_group(members: list[_Item], reports: _Reports) -> None:
         answers = [(item, sizes, c.power, c.df_numerator, c.df_denominator, c.noncentrality, c.critical_value,
                     list(c.group_sizes), found.target_power, found.noncentrality)]
     else:
-        rows = Rows([it.design for it in members])
-        sizes2d, errors = _sizes_rows(rows, members)
-        ok = []
-        for j, e in enumerate(errors):
-            if e is None:
-                ok.append(j)
-            else:
-                members[j].error = e
-        if not ok:
+        sized = _sized_rows(members)
+        if sized is None:
             return
-        part = rows if len(ok) == rows.count else rows.take(ok)
+        part, sizes2d, ok = sized
         got, errs = planning.detectable_rows(
-            part, sizes=sizes2d[ok], alpha=[members[j].req["alpha"] for j in ok],
+            part, sizes=sizes2d, alpha=[members[j].req["alpha"] for j in ok],
             target_power=[members[j].req["target_power"] for j in ok],
         )
         c = got.check
@@ -512,7 +508,7 @@ def _detectable_group(members: list[_Item], reports: _Reports) -> None:
             if errs[jj] is not None:
                 members[j].error = errs[jj]
                 continue
-            answers.append((members[j], sizes2d[j], *(col[jj] for col in cols)))
+            answers.append((members[j], sizes2d[jj], *(col[jj] for col in cols)))
     entries = [(a[0].adapter, None, a[1], tuple(a[7]), None) for a in answers]
     for (item, sizes, pw, df1, df2, lam, crit, size_list, tp, found_lam), warn in zip(
             answers, reports.warnings(entries), strict=True):
