@@ -72,6 +72,16 @@ def _check_count(sizes_count: int | None, expected: int, what: str) -> None:
         raise ValidationError(f"{what} (got {sizes_count})", "group_sizes")
 
 
+class _EffectInSdUnits(StrictSchema):
+    """The effect as Cohen's d, or as a mean difference with its SD (two- and one-sample t)."""
+
+    @validates_schema
+    def _effect(self, data, **kwargs):
+        _one_of(data, ("cohens_d", "mean_difference"))
+        if "mean_difference" in data and "sd" not in data:
+            raise ValidationError("is required with mean_difference", "sd")
+
+
 class TFamilyAdapter:
     """What the three t adapters share: reports on the t scale and warnings."""
 
@@ -103,7 +113,7 @@ class TFamilyAdapter:
 # -- two independent samples ------------------------------------------------------------
 
 
-class TwoSampleTDesignSchema(StrictSchema):
+class TwoSampleTDesignSchema(_EffectInSdUnits):
     """Two independent groups compared by the pooled-variance t test of μ₁ − μ₂."""
 
     type = choice(["two_sample_t"], required=True, metadata={"description": "Design family."})
@@ -115,11 +125,6 @@ class TwoSampleTDesignSchema(StrictSchema):
     allocation = allocation_field(min_items=2, max_items=2)
     alternative = alternative_field()
 
-    @validates_schema
-    def _effect(self, data, **kwargs):
-        _one_of(data, ("cohens_d", "mean_difference"))
-        if "mean_difference" in data and "sd" not in data:
-            raise ValidationError("is required with mean_difference", "sd")
 
 
 class TwoSampleTAdapter(TFamilyAdapter):
@@ -192,7 +197,7 @@ class TwoSampleTAdapter(TFamilyAdapter):
 # -- one sample -------------------------------------------------------------------------
 
 
-class OneSampleTDesignSchema(StrictSchema):
+class OneSampleTDesignSchema(_EffectInSdUnits):
     """One sample's mean against a reference value by the one-sample t test (n = subjects)."""
 
     type = choice(["one_sample_t"], required=True, metadata={"description": "Design family."})
@@ -203,11 +208,6 @@ class OneSampleTDesignSchema(StrictSchema):
     cohens_d = standardised_field("cohens_d", "Cohen's d = (μ − μ₀)/σ, the standardised difference from the reference value.")
     alternative = alternative_field()
 
-    @validates_schema
-    def _effect(self, data, **kwargs):
-        _one_of(data, ("cohens_d", "mean_difference"))
-        if "mean_difference" in data and "sd" not in data:
-            raise ValidationError("is required with mean_difference", "sd")
 
 
 class OneSampleTAdapter(TFamilyAdapter):
