@@ -126,7 +126,6 @@ class TwoSampleTDesignSchema(_EffectInSdUnits):
     alternative = alternative_field()
 
 
-
 class TwoSampleTAdapter(TFamilyAdapter):
     """Turns validated two-sample fields into a core design and its effect reports."""
 
@@ -207,7 +206,6 @@ class OneSampleTDesignSchema(_EffectInSdUnits):
     sd = sd_field("Standard deviation σ of the observations, in data units.")
     cohens_d = standardised_field("cohens_d", "Cohen's d = (μ − μ₀)/σ, the standardised difference from the reference value.")
     alternative = alternative_field()
-
 
 
 class OneSampleTAdapter(TFamilyAdapter):
