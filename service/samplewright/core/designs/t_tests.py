@@ -82,6 +82,19 @@ def check_standardised(value: float, field: str, name: str, raw=None) -> None:
         )
 
 
+def standardised_difference(cohens_d, mean_difference, sd) -> tuple[float, str, str]:
+    """(d, the field it came from, its source name): Cohen's d as given, or d = Δ/σ (Cohen 1988, ch. 2)."""
+    if cohens_d is not None:
+        d, field, source = float(cohens_d), "design.cohens_d", "cohens_d"
+        check_standardised(d, field, "d")
+        return d, field, source
+    if mean_difference is None or sd is None or not sd > 0:
+        raise InvalidParameter("design.sd", sd, "a positive sd is required with mean_difference")
+    d, field = float(mean_difference) / float(sd), "design.mean_difference"
+    check_standardised(d, field, "d = mean_difference/sd", raw=mean_difference)
+    return d, field, "mean_difference"
+
+
 class TTestDesign(FTestDesign):
     """A design tested by a t statistic: subclasses give ``t_at(sizes) -> (ν, δ)``.
 
@@ -176,14 +189,7 @@ class TwoSampleT(TTestDesign):
                alternative: str = "two-sided") -> TwoSampleT:
         """From Cohen's d, or from the mean difference μ₁ − μ₂ and the common SD."""
         ratios = normalised_allocation(allocation, 2)
-        if cohens_d is not None:
-            d, field, source = float(cohens_d), "design.cohens_d", "cohens_d"
-            check_standardised(d, field, "d")
-        else:
-            if mean_difference is None or sd is None or not sd > 0:
-                raise InvalidParameter("design.sd", sd, "a positive sd is required with mean_difference")
-            d, field, source = float(mean_difference) / float(sd), "design.mean_difference", "mean_difference"
-            check_standardised(d, field, "d = mean_difference/sd", raw=mean_difference)
+        d, field, source = standardised_difference(cohens_d, mean_difference, sd)
         check_effect_sign(d, alternative, field, "mean difference μ₁ − μ₂")
         return cls(
             ratios=ratios, cohens_d=d, alternative=alternative,
@@ -219,14 +225,7 @@ class OneSampleT(TTestDesign):
     def create(cls, *, cohens_d=None, mean_difference=None, sd=None,
                alternative: str = "two-sided") -> OneSampleT:
         """From Cohen's d, or from the mean difference from the reference value and the SD."""
-        if cohens_d is not None:
-            d, field, source = float(cohens_d), "design.cohens_d", "cohens_d"
-            check_standardised(d, field, "d")
-        else:
-            if mean_difference is None or sd is None or not sd > 0:
-                raise InvalidParameter("design.sd", sd, "a positive sd is required with mean_difference")
-            d, field, source = float(mean_difference) / float(sd), "design.mean_difference", "mean_difference"
-            check_standardised(d, field, "d = mean_difference/sd", raw=mean_difference)
+        d, field, source = standardised_difference(cohens_d, mean_difference, sd)
         check_effect_sign(d, alternative, field, "mean difference from the reference value")
         return cls(
             cohens_d=d, alternative=alternative,
