@@ -46,7 +46,7 @@ from .body import MAX_INTEGER_DIGITS
 from .designs import ADAPTERS
 from .fastload import loader_for, sharing
 from .fields import StrictSchema
-from .jsontext import BATCH_WRITER, Writer
+from .jsontext import ANSWER_WRITER, Writer
 from .problems import Problem, cap_errors, core_problem, validation_problem
 from .provenance import caching as provenance_caching
 from .provenance import provenance, request_digest
@@ -138,7 +138,7 @@ def _fixed_parts(adapter) -> _Fixed:
     return fixed
 
 
-def result_text(item: _Item, writer: Writer = BATCH_WRITER) -> str:
+def result_text(item: _Item, writer: Writer = ANSWER_WRITER) -> str:
     """``item.result`` as JSON text: the head encoded, the fixed members spliced in as text.
 
     The same members in the same order as ``item.result``; the fixed ones are encoded once
@@ -709,7 +709,7 @@ def run_batch(body: dict, *, max_items: int) -> str:
     for operation, index in by_operation.items():
         for i, item in zip(index, answer_many(operation, [bodies[i] for i in index]), strict=True):
             answered[i] = item
-    encode, string = BATCH_WRITER.encode, BATCH_WRITER.string
+    encode, string = ANSWER_WRITER.encode, ANSWER_WRITER.string
     out = []
     failed = 0
     for item_id, item in zip(ids, answered, strict=True):

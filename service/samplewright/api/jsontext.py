@@ -52,8 +52,8 @@ class Writer:
         return encode if same else None
 
 
-#: The batch response: UTF-8 rather than \u escapes (the same JSON values, a smaller body,
-#: a faster encoding).
-BATCH_WRITER = Writer(ensure_ascii=False)
-#: The single planning routes: the app's JSON settings (no NaN, compact, ASCII).
+#: Every planning answer, single or in a batch: the app's JSON settings (no NaN, compact,
+#: ASCII). ASCII also for the batch: a non-ASCII character anywhere (the σ of an assumption)
+#: makes Python hold the whole text at two bytes a character, which doubled the cost of
+#: joining and encoding a 16 MB batch response (3.7 µs of 26 per item, measured).
 ANSWER_WRITER = Writer(ensure_ascii=True)
