@@ -30,6 +30,7 @@ operations, so single and batch answers are equal bit for bit (tests/api/test_ba
 from __future__ import annotations
 
 import gc
+import json
 import logging
 from collections.abc import Iterator
 from contextlib import contextmanager, nullcontext
@@ -43,6 +44,7 @@ from ..core.errors import InvalidParameter, NoSolution, show
 from ..core.vectorised import Rows, rows_key
 from . import problems
 from .body import MAX_INTEGER_DIGITS
+from .columnwriter import Sheet, Template
 from .designs import ADAPTERS
 from .fastload import loader_for, sharing
 from .fields import StrictSchema
@@ -72,9 +74,11 @@ class _Item:
     ``head`` is the answer's own part (the numbers, the effect, the warnings); what depends
     only on the design type (method, assumptions, cautions, the fixed provenance fields) is
     added by ``result`` as a dict, or by ``result_text`` as JSON text written once per type.
+    A group answered for the batch route writes ``text`` instead of ``head``: the head's
+    JSON text without its closing brace (``columnwriter``); ``head`` then reads it back.
     """
 
-    __slots__ = ("req", "adapter", "design", "layout", "error", "head", "digest", "_full")
+    __slots__ = ("req", "adapter", "design", "layout", "error", "_head", "text", "digest", "_full")
 
     def __init__(self) -> None:
         self.req: dict | None = None
@@ -82,14 +86,32 @@ class _Item:
         self.design = None
         self.layout = None
         self.error: Exception | None = None
-        self.head: dict | None = None
+        self._head: dict | None = None
+        self.text: str | None = None
         self.digest: str | None = None
         self._full: dict | None = None
 
     @property
+    def head(self) -> dict | None:
+        if self._head is None and self.text is not None:
+            # The text's numbers are shortest round-trip decimals: they read back bit for bit.
+            self._head = json.loads(self.text + "}")
+        return self._head
+
+    @head.setter
+    def head(self, value: dict | None) -> None:
+        self._head = value
+        self.text = None
+        self._full = None
+
+    @property
+    def answered(self) -> bool:
+        return self._head is not None or self.text is not None
+
+    @property
     def result(self) -> dict | None:
         """The whole response body as a dict (None without an answer)."""
-        if self.head is None:
+        if not self.answered:
             return None
         if self._full is None:
             fixed = _fixed_parts(self.adapter)
@@ -138,14 +160,21 @@ def _fixed_parts(adapter) -> _Fixed:
     return fixed
 
 
+def _head_text(item: _Item, writer: Writer) -> str:
+    """The head's JSON text without its closing brace (written by the group, or encoded here)."""
+    if item.text is not None and writer is ANSWER_WRITER:
+        return item.text
+    return writer.encode(item.head)[:-1]
+
+
 def result_text(item: _Item, writer: Writer = ANSWER_WRITER) -> str:
-    """``item.result`` as JSON text: the head encoded, the fixed members spliced in as text.
+    """``item.result`` as JSON text: the head's text, the fixed members spliced in as text.
 
     The same members in the same order as ``item.result``; the fixed ones are encoded once
     per adapter and writer rather than once per answer (they are most of the bytes).
     """
     before, after = _fixed_parts(item.adapter).text(writer)
-    return writer.encode(item.head)[:-1] + before + item.digest + after
+    return _head_text(item, writer) + before + item.digest + after
 
 
 # -- response pieces (shared by all three operations) -------------------------------------
@@ -233,6 +262,14 @@ class _Reports:
 
     def effects(self, entries: list, sizes: np.ndarray | None = None, lam: np.ndarray | None = None) -> list[dict]:
         return self._many(entries, "effect_reports", "effect_report", self._effect, dict, True, sizes, lam)
+
+    @staticmethod
+    def by_rows(items: list) -> bool:
+        """Whether every item's adapter reports many rows at once and adds no ``details``: then
+        a group's answers can be written a column at a time."""
+        adapters = {id(item.adapter): item.adapter for item in items}.values()
+        return all(getattr(a, "extras", None) is None and getattr(a, "warnings_rows", None) is not None
+                   and getattr(a, "effect_reports", None) is not None for a in adapters)
 
     @staticmethod
     def has_extras(entries: list) -> bool:
@@ -323,11 +360,11 @@ def _sizes_rows(rows: Rows, members: list[_Item]) -> tuple[np.ndarray, list]:
     errors: list = [None] * count
     by_n = [j for j, it in enumerate(members) if "group_sizes" not in it.req]
     by_list = [j for j, it in enumerate(members) if "group_sizes" in it.req]
-    for index, fill in ((by_n, "n"), (by_list, "list")):
+    for index, given in ((by_n, "n"), (by_list, "list")):
         if not index:
             continue
         part = rows if len(index) == count else rows.take(index)
-        if fill == "n":
+        if given == "n":
             got, errs = planning.sizes_for_rows(part, [members[j].req["n_per_group"] for j in index])
         else:
             got, errs = planning.check_sizes_rows(part, [members[j].req["group_sizes"] for j in index])
@@ -360,7 +397,7 @@ def _sized_rows(members: list[_Item]) -> tuple[Rows, np.ndarray, list[int]] | No
 # -- stage 3 and 4: computation and reports, per operation -------------------------------------
 
 
-def _power_group(members: list[_Item], reports: _Reports) -> None:
+def _power_group(members: list[_Item], reports: _Reports, text: bool = False) -> None:
     if len(members) == 1:
         item = members[0]
         try:
@@ -378,6 +415,10 @@ def _power_group(members: list[_Item], reports: _Reports) -> None:
         part, group_sizes, ok = sized
         whole = len(ok) == len(members)
         got = planning.power_rows(part, sizes=group_sizes, alpha=[members[j].req["alpha"] for j in ok])
+        answered = members if whole else [members[j] for j in ok]
+        if text and reports.by_rows(answered):
+            _power_texts(answered, got, reports)
+            return
         answers = zip(
             members if whole else [members[j] for j in ok], group_sizes, got.power.tolist(),
             got.df_numerator.tolist(), got.df_denominator.tolist(), got.noncentrality.tolist(),
@@ -400,7 +441,41 @@ def _power_group(members: list[_Item], reports: _Reports) -> None:
         item.head = reports.extras(item.adapter, item.design, sizes, alpha, entry[3], out) if with_extras else out
 
 
-def _sample_size_group(members: list[_Item], reports: _Reports) -> None:
+#: The power head's members, in the order ``_power_group`` writes them.
+_POWER_HEAD = Template(("power", "alpha", "design_type", "df_numerator", "df_denominator", "noncentrality",
+                        "critical_value", "group_sizes", "n_total", "warnings", "effect"), closed=False)
+
+
+def _list_texts(values: list[list]) -> list[str]:
+    """Each list as JSON text (answers' warnings: most are empty)."""
+    encode = ANSWER_WRITER.encode
+    return [encode(v) if v else "[]" for v in values]
+
+
+def _type_texts(items: list[_Item]) -> list[str]:
+    """Each item's design type as JSON text (a group's items nearly always share one adapter)."""
+    first = items[0].adapter
+    if all(item.adapter is first for item in items):
+        return [ANSWER_WRITER.string(first.type)] * len(items)
+    return [ANSWER_WRITER.string(item.adapter.type) for item in items]
+
+
+def _power_texts(items: list[_Item], got, reports: _Reports) -> None:
+    """The heads of a power group as text (``item.text``), a column at a time: the members and
+    values ``_power_group`` puts in its dicts, in the same order (adapters without extras)."""
+    sizes = got.sizes
+    entries = [(item.adapter, item.design, row, None, None) for item, row in zip(items, sizes, strict=True)]
+    sheet = Sheet()
+    columns = (sheet.floats(got.power), sheet.values([item.req["alpha"] for item in items]), _type_texts(items),
+               sheet.floats(got.df_numerator), sheet.floats(got.df_denominator), sheet.floats(got.noncentrality),
+               sheet.floats(got.critical_value), sheet.integers(sizes), sheet.integers(sizes.sum(axis=1)),
+               _list_texts(reports.warnings(entries, sizes)),
+               sheet.dicts(reports.effects(entries, sizes, got.noncentrality)))
+    for item, head in zip(items, sheet.fill(_POWER_HEAD, columns), strict=True):
+        item.text = head
+
+
+def _sample_size_group(members: list[_Item], reports: _Reports, text: bool = False) -> None:
     if len(members) == 1:
         item = members[0]
         req = item.req
@@ -477,7 +552,7 @@ def _sample_size_group(members: list[_Item], reports: _Reports) -> None:
             if with_extras else out
 
 
-def _detectable_group(members: list[_Item], reports: _Reports) -> None:
+def _detectable_group(members: list[_Item], reports: _Reports, text: bool = False) -> None:
     if len(members) == 1:
         item = members[0]
         req = item.req
@@ -530,12 +605,12 @@ _OPERATIONS = {
 OPERATIONS = tuple(_OPERATIONS)
 
 
-def _run_group(compute, members: list[_Item], reports: _Reports, *, isolate: bool) -> None:
+def _run_group(compute, members: list[_Item], reports: _Reports, *, isolate: bool, text: bool) -> None:
     if not isolate:
-        compute(members, reports)
+        compute(members, reports, text)
         return
     try:
-        compute(members, reports)
+        compute(members, reports, text)
         return
     except Exception:  # answer the group's items one by one, so only the one at fault fails
         pass
@@ -550,11 +625,12 @@ def _run_group(compute, members: list[_Item], reports: _Reports, *, isolate: boo
             item.error = exc
 
 
-def answer_many(operation: str, bodies: list, *, isolate: bool = True) -> list[_Item]:
+def answer_many(operation: str, bodies: list, *, isolate: bool = True, text: bool = False) -> list[_Item]:
     """Validate, compute and report every body of ``operation`` (one of OPERATIONS).
 
     Each returned item has ``result`` (the response dict) or ``error`` (a Problem, a core
-    error, or, with ``isolate``, an unexpected exception).
+    error, or, with ``isolate``, an unexpected exception). With ``text``, groups may write
+    their answers as text (``item.text``) for ``result_text``; ``result`` still works.
     """
     schema, how, compute = _OPERATIONS[operation]
     items = [_Item() for _ in bodies]
@@ -563,11 +639,11 @@ def answer_many(operation: str, bodies: list, *, isolate: bool = True) -> list[_
     _make(items, how)
     reports = _Reports()
     for members in _groups(items):
-        _run_group(compute, members, reports, isolate=isolate)
+        _run_group(compute, members, reports, isolate=isolate, text=text)
     # Items of a batch share validated design dicts, whose canonical text is written once.
     with provenance_caching() if len(items) > 1 else nullcontext():
         for item in items:
-            if item.head is not None:
+            if item.answered:
                 item.digest = request_digest(item.req)
     return items
 
@@ -707,14 +783,16 @@ def run_batch(body: dict, *, max_items: int) -> str:
     bodies = [raw["request"] for raw in raw_items]
     answered: list = [None] * len(raw_items)
     for operation, index in by_operation.items():
-        for i, item in zip(index, answer_many(operation, [bodies[i] for i in index]), strict=True):
+        for i, item in zip(index, answer_many(operation, [bodies[i] for i in index], text=True), strict=True):
             answered[i] = item
     encode, string = ANSWER_WRITER.encode, ANSWER_WRITER.string
     out = []
     failed = 0
     for item_id, item in zip(ids, answered, strict=True):
         if item.error is None:
-            out.append(f'{{"id":{string(item_id)},"status":200,"result":{result_text(item)}}}')
+            before, after = _fixed_parts(item.adapter).text(ANSWER_WRITER)
+            head = _head_text(item, ANSWER_WRITER)
+            out.append(f'{{"id":{string(item_id)},"status":200,"result":{head}{before}{item.digest}{after}}}')
         else:
             problem = problem_body(item.error)
             out.append(encode({"id": item_id, "status": problem["status"], "problem": problem}))
