@@ -335,6 +335,33 @@ def test_identical_items_give_identical_answers(client):
     assert results[0]["group_sizes"] == [27, 27, 27] and results[0]["enrolment"]["group_sizes"] == [30, 30, 30]
 
 
+def test_repeated_and_nearly_repeated_questions_each_get_the_single_answer(client):
+    """Questions answered once for many items: each item still equals its single call, digest included.
+
+    Near repeats differ only in what the digest sees (0.0 against -0.0, a key order, an
+    invalid value), so sharing must not merge them. Source: common practice, no source.
+    """
+    design = {"type": "one_way_anova", "cohens_f": 0.3, "groups": 4}
+    bodies = [{"design": design, "target_power": 0.8}, {"design": design, "target_power": 0.8, "dropout_rate": 0.0},
+              {"design": design, "target_power": 0.8, "dropout_rate": -0.0}, {"target_power": 0.8, "design": design},
+              {"design": design, "target_power": 0.8, "dropout_rate": 2}, {"design": design, "target_power": 0.9}]
+    items = [{"id": f"q{i}", "operation": op, "request": bodies[i % len(bodies)]}
+             for i in range(60) for op in ("sample-size", "detectable-effect")]
+    for item in items:
+        if item["operation"] == "detectable-effect":
+            item["request"] = {"design": {"type": "one_way_anova", "groups": 4}, "n_per_group": 20,
+                               **{k: v for k, v in item["request"].items() if k not in ("design", "dropout_rate")}}
+    status, body = _post(client, BATCH, {"items": items})
+    assert status == 200
+    for item, answer in zip(items, body["items"], strict=True):
+        single_status, single = _post(client, ROUTES[item["operation"]], item["request"])
+        assert answer["status"] == single_status
+        if single_status == 200:
+            assert answer["result"] == single
+        else:
+            assert answer["problem"] == _strip(single)
+
+
 # -- the fast loader loads exactly as marshmallow does ---------------------------------------
 
 

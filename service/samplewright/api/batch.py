@@ -104,6 +104,15 @@ class _Item:
         self.text = None
         self._full = None
 
+    def copy_answer(self, first: _Item) -> None:
+        """The answer of ``first``, which asked the same question: its error or its text (which
+        gives this item a head of its own when a dict is wanted)."""
+        self.adapter, self.design, self.layout, self.error = first.adapter, first.design, first.layout, first.error
+        if first.answered:
+            if first.text is None:
+                first.text = ANSWER_WRITER.encode(first._head)[:-1]
+            self.text, self.digest = first.text, first.digest
+
     @property
     def answered(self) -> bool:
         return self._head is not None or self.text is not None
@@ -292,8 +301,10 @@ class _Reports:
 # -- stage 1 and 2: validation and designs ---------------------------------------------------
 
 
-def _validate(items: list[_Item], bodies: list, schema) -> None:
-    loader = loader_for(schema)
+def _validate(items: list[_Item], bodies: list, schema, *, shareable: bool = False) -> None:
+    """Each body's validated request, or its problem. ``shareable``: identical bodies (see
+    ``fastload.sharing``) get the same validated dict, so that ``_distinct`` can see them."""
+    loader = loader_for(schema, shareable=shareable)
     for item, body in zip(items, bodies, strict=True):
         try:
             item.req = loader.load(body)
@@ -597,10 +608,14 @@ def _detectable_group(members: list[_Item], reports: _Reports, text: bool = Fals
         item.head = out
 
 
+#: operation → (request schema, how its design is made, its group engine, whether identical
+#: questions are answered once). Power rows are cheap to compute and rarely repeat (a sweep
+#: varies the size); a sample-size question repeats whenever a sweep varies something it
+#: does not take, and each costs a lockstep search.
 _OPERATIONS = {
-    "power": (POWER_REQUEST, "build", _power_group),
-    "sample-size": (SAMPLE_SIZE_REQUEST, "build", _sample_size_group),
-    "detectable-effect": (DETECTABLE_REQUEST, "layout", _detectable_group),
+    "power": (POWER_REQUEST, "build", _power_group, False),
+    "sample-size": (SAMPLE_SIZE_REQUEST, "build", _sample_size_group, True),
+    "detectable-effect": (DETECTABLE_REQUEST, "layout", _detectable_group, True),
 }
 OPERATIONS = tuple(_OPERATIONS)
 
@@ -632,20 +647,40 @@ def answer_many(operation: str, bodies: list, *, isolate: bool = True, text: boo
     error, or, with ``isolate``, an unexpected exception). With ``text``, groups may write
     their answers as text (``item.text``) for ``result_text``; ``result`` still works.
     """
-    schema, how, compute = _OPERATIONS[operation]
+    schema, how, compute, share_questions = _OPERATIONS[operation]
     items = [_Item() for _ in bodies]
+    share_questions = share_questions and len(items) > 1
     with sharing():
-        _validate(items, bodies, schema)
-    _make(items, how)
+        _validate(items, bodies, schema, shareable=share_questions)
+    work, repeats = _distinct(items) if share_questions else (items, [])
+    _make(work, how)
     reports = _Reports()
-    for members in _groups(items):
+    for members in _groups(work):
         _run_group(compute, members, reports, isolate=isolate, text=text)
     # Items of a batch share validated design dicts, whose canonical text is written once.
-    with provenance_caching() if len(items) > 1 else nullcontext():
-        for item in items:
+    with provenance_caching() if len(work) > 1 else nullcontext():
+        for item in work:
             if item.answered:
                 item.digest = request_digest(item.req)
+    for item, first in repeats:
+        item.copy_answer(first)
     return items
+
+
+def _distinct(items: list[_Item]) -> tuple[list[_Item], list[tuple[_Item, _Item]]]:
+    """The first item of each distinct validated request (valid ones only), and (repeat, first)
+    for the items that ask the same question again (the same validated dict object)."""
+    firsts: dict[int, _Item] = {}
+    work, repeats = [], []
+    for item in items:
+        if item.error is not None:
+            continue
+        first = firsts.setdefault(id(item.req), item)
+        if first is item:
+            work.append(item)
+        else:
+            repeats.append((item, first))
+    return work, repeats
 
 
 def _one(operation: str, body: dict) -> _Item:
