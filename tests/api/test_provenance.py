@@ -22,6 +22,7 @@ from samplewright.api.provenance import (
     canonical_json,
     provenance,
     request_digest,
+    request_digests,
 )
 
 
@@ -93,6 +94,26 @@ def test_canonical_json_equals_the_reference_on_random_requests(seed):
         assert [canonical_json(request) for request in requests] == expected
         assert [canonical_json(request) for request in requests] == expected
         assert [request_digest(request) for request in requests] == [reference_digest(r) for r in requests]
+
+
+@pytest.mark.parametrize("seed", range(4))
+def test_request_digests_equal_the_reference_on_requests_of_a_few_shapes(seed):
+    """request_digests (a member at a time) gives the README's digest of every request, in order.
+
+    Seeded requests of four member lists (so that the by-shape path runs), values of every
+    kind, nested dicts shared from a pool or not, some requests of a shape of their own.
+    """
+    rng = random.Random(100 + seed)
+    shapes = [rng.sample(_KEYS, rng.randint(1, 5)) for _ in range(4)] + [[]]
+    pool = [{"type": rng.choice(_STRINGS), "v": _value(rng, 2)} for _ in range(5)]
+    requests = _requests(seed, 50)
+    for _ in range(600):
+        shape = rng.choice(shapes)
+        requests.append({key: rng.choice(pool) if rng.random() < 0.5 else _value(rng, 2) for key in shape})
+    rng.shuffle(requests)
+    assert request_digests(requests) == [reference_digest(r) for r in requests]
+    one_design = [{"design": pool[0], "n_per_group": n, "alpha": rng.choice([0.05, -0.0, 0.0])} for n in range(300)]
+    assert request_digests(one_design) == [reference_digest(r) for r in one_design]
 
 
 def test_canonical_json_of_non_dict_values_equals_the_reference():

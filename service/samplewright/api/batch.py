@@ -33,7 +33,7 @@ import gc
 import json
 import logging
 from collections.abc import Iterator
-from contextlib import contextmanager, nullcontext
+from contextlib import contextmanager
 from typing import Any
 
 import numpy as np
@@ -50,8 +50,7 @@ from .fastload import loader_for, sharing
 from .fields import StrictSchema
 from .jsontext import ANSWER_WRITER, Writer
 from .problems import Problem, cap_errors, core_problem, validation_problem
-from .provenance import caching as provenance_caching
-from .provenance import provenance, request_digest
+from .provenance import provenance, request_digest, request_digests
 from .schemas import DETECTABLE_REQUEST, POWER_REQUEST, SAMPLE_SIZE_REQUEST, ProblemSchema
 
 log = logging.getLogger("samplewright")
@@ -657,11 +656,12 @@ def answer_many(operation: str, bodies: list, *, isolate: bool = True, text: boo
     reports = _Reports()
     for members in _groups(work):
         _run_group(compute, members, reports, isolate=isolate, text=text)
-    # Items of a batch share validated design dicts, whose canonical text is written once.
-    with provenance_caching() if len(work) > 1 else nullcontext():
-        for item in work:
-            if item.answered:
-                item.digest = request_digest(item.req)
+    answered = [item for item in work if item.answered]
+    if len(answered) == 1:
+        answered[0].digest = request_digest(answered[0].req)
+    elif answered:  # items of a batch share design dicts: digested a member at a time
+        for item, digest in zip(answered, request_digests([item.req for item in answered]), strict=True):
+            item.digest = digest
     for item, first in repeats:
         item.copy_answer(first)
     return items

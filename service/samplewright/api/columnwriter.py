@@ -13,7 +13,7 @@ values; tests/api/test_batch.py compares whole batch answers with single ones).
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from typing import Any
 
 import numpy as np
@@ -30,19 +30,21 @@ class Template:
 
     A member is a name (its value filled in) or a (name, fixed JSON text) pair. ``closed``
     False leaves off the closing brace, for text to be appended after the members.
+    ``string`` writes the names (the answers' ASCII writer unless given).
     """
 
     __slots__ = ("text", "width")
 
-    def __init__(self, members: Sequence[str | tuple[str, str]], *, closed: bool = True) -> None:
+    def __init__(self, members: Sequence[str | tuple[str, str]], *, closed: bool = True,
+                 string: Callable[[str], str] = _string) -> None:
         parts = []
         width = 0
         for member in members:
             if isinstance(member, tuple):
                 name, fixed = member
-                parts.append(_string(name).replace("%", "%%") + ":" + fixed.replace("%", "%%"))
+                parts.append(string(name).replace("%", "%%") + ":" + fixed.replace("%", "%%"))
             else:
-                parts.append(_string(member).replace("%", "%%") + ":%s")
+                parts.append(string(member).replace("%", "%%") + ":%s")
                 width += 1
         self.text = "{" + ",".join(parts) + ("}" if closed else "")
         self.width = width
@@ -71,10 +73,13 @@ class Sheet:
 
     A column is given as ``floats`` (a float64 array), ``integers`` (an integer array; 2-D:
     each row a JSON array), ``values`` (any list: floats or integers go to the pools),
-    or ``dicts`` (a list of dicts); a list of JSON texts is a column as it is.
+    or ``dicts`` (a list of dicts); a list of JSON texts is a column as it is. ``encode``
+    writes the values that are not numbers and ``string`` the names of dicts' members (the
+    answers' ASCII writer unless given).
     """
 
-    def __init__(self) -> None:
+    def __init__(self, encode: Callable[[Any], str] = _encode, string: Callable[[str], str] = _string) -> None:
+        self._encode, self._string = encode, string
         self._pools: tuple[list[np.ndarray], list[np.ndarray]] = ([], [])
         self._sizes = [0, 0]
         self._written: tuple[list[str], list[str]] | None = None
@@ -106,7 +111,7 @@ class Sheet:
                 return self.floats(np.array(values, dtype=np.float64))
             if kinds == {int} and all(-(2**62) < v < 2**62 for v in values):
                 return self.integers(np.array(values, dtype=np.int64))
-        return [_encode(v) for v in values]
+        return list(map(self._encode, values))
 
     def dicts(self, values: Sequence[dict]):
         count = len(values)
@@ -119,9 +124,9 @@ class Sheet:
             if not keys:
                 shapes.append((index, None, ["{}"] * len(rows)))
             elif not all(type(key) is str for key in keys):  # the encoder converts or refuses such keys
-                shapes.append((index, None, [_encode(row) for row in rows]))
+                shapes.append((index, None, list(map(self._encode, rows))))
             else:
-                shapes.append((index, Template(keys), [self.values([row[key] for row in rows]) for key in keys]))
+                shapes.append((index, Template(keys, string=self._string), [self.values([row[key] for row in rows]) for key in keys]))
         return _Dicts(count, shapes)
 
     def _write(self) -> tuple[list[str], list[str]]:
