@@ -470,6 +470,15 @@ def _type_texts(items: list[_Item]) -> list[str]:
     return [ANSWER_WRITER.string(item.adapter.type) for item in items]
 
 
+def _effect_column(sheet: Sheet, items: list[_Item], entries: list, got, reports: _Reports):
+    """The effect members of a group's answers: the adapter's columns if it gives them
+    (``effect_columns``, the same numbers as its dicts), else its dicts."""
+    columns = getattr(items[0].adapter, "effect_columns", None)
+    if columns is not None and all(item.adapter is items[0].adapter for item in items):
+        return sheet.shapes(len(items), columns([item.design for item in items], got.sizes, got.noncentrality))
+    return sheet.dicts(reports.effects(entries, got.sizes, got.noncentrality))
+
+
 def _power_texts(items: list[_Item], got, reports: _Reports) -> None:
     """The heads of a power group as text (``item.text``), a column at a time: the members and
     values ``_power_group`` puts in its dicts, in the same order (adapters without extras)."""
@@ -479,8 +488,7 @@ def _power_texts(items: list[_Item], got, reports: _Reports) -> None:
     columns = (sheet.floats(got.power), sheet.values([item.req["alpha"] for item in items]), _type_texts(items),
                sheet.floats(got.df_numerator), sheet.floats(got.df_denominator), sheet.floats(got.noncentrality),
                sheet.floats(got.critical_value), sheet.integers(sizes), sheet.integers(sizes.sum(axis=1)),
-               _list_texts(reports.warnings(entries, sizes)),
-               sheet.dicts(reports.effects(entries, sizes, got.noncentrality)))
+               _list_texts(reports.warnings(entries, sizes)), _effect_column(sheet, items, entries, got, reports))
     for item, head in zip(items, sheet.fill(_POWER_HEAD, columns), strict=True):
         item.text = head
 

@@ -129,6 +129,22 @@ class Sheet:
                 shapes.append((index, Template(keys, string=self._string), [self.values([row[key] for row in rows]) for key in keys]))
         return _Dicts(count, shapes)
 
+    def shapes(self, count: int, shapes: Sequence[tuple[np.ndarray, tuple[str, ...], Sequence]]):
+        """A column of ``count`` dicts given by shapes: (row indices, member names, a column per
+        member, its values for those rows), every row in exactly one shape."""
+        seen = np.zeros(count, dtype=np.int64)
+        out = []
+        for index, names, columns in shapes:
+            seen[index] += 1
+            parts = [self.floats(c) if isinstance(c, np.ndarray) and c.dtype == np.float64 else self.values(list(c))
+                     for c in columns]
+            template = Template(names, string=self._string)
+            out.append((np.asarray(index).tolist(), template if names else None,
+                        parts if names else ["{}"] * len(index)))
+        if not (seen == 1).all():
+            raise ValueError("shapes must cover every row exactly once")
+        return _Dicts(count, out)
+
     def _write(self) -> tuple[list[str], list[str]]:
         if self._written is None:
             floats, integers = self._pools

@@ -255,27 +255,44 @@ class OneWayAnovaAdapter:
             report["range_of_means"] = float(np.ptp(design.means))
         return report
 
-    def effect_reports(self, designs: list, sizes: np.ndarray, noncentrality: np.ndarray) -> list[dict]:
-        """``effect_report`` for many rows at once: f = √(λ / N) from each row's λ (same numbers).
+    def effect_columns(self, designs: list, sizes: np.ndarray, noncentrality: np.ndarray) -> list[tuple]:
+        """``effect_report`` for many rows at once, as columns: f = √(λ / N) from each row's λ.
 
         ``noncentrality`` is the λ the power evaluation found at these sizes, the value
-        ``cohens_f_at`` computes again.
+        ``cohens_f_at`` computes again. Rows whose designs give the same members form a
+        shape: (its row indices, its member names, a float64 column per member).
         """
         f = np.sqrt(noncentrality / sizes.sum(axis=1).astype(float))
         eta = eta_squared_from_f(f)
+        kinds: dict[int, tuple[int, float, float]] = {}  # id(design) → (shape, sd, range of means)
+        rows = []
+        for design in designs:
+            kind = kinds.get(id(design))
+            if kind is None:
+                shape = (design.sd is not None) + 2 * (design.means is not None)
+                kind = kinds[id(design)] = (shape, 0.0 if design.sd is None else design.sd,
+                                            float(np.ptp(design.means)) if design.means is not None else 0.0)
+            rows.append(kind)
+        shape, sd, spread = (np.array(column) for column in zip(*rows, strict=True)) if rows else ((),) * 3
         out = []
-        ranges: dict[int, float] = {}
-        for i, design in enumerate(designs):
-            fi = float(f[i])
-            report = {"cohens_f": fi, "eta_squared": float(eta[i])}
-            if design.sd is not None:
-                report["sd_of_means"] = fi * design.sd
-            if design.means is not None:
-                key = id(design)
-                if key not in ranges:
-                    ranges[key] = float(np.ptp(design.means))
-                report["range_of_means"] = ranges[key]
-            out.append(report)
+        for code in np.unique(shape).tolist():
+            index = np.flatnonzero(shape == code)
+            names, columns = ["cohens_f", "eta_squared"], [f[index], eta[index]]
+            if code & 1:  # with the SD: the SD of the means, f·σ (the same product as effect_report's)
+                names.append("sd_of_means")
+                columns.append(f[index] * sd[index])
+            if code & 2:
+                names.append("range_of_means")
+                columns.append(spread[index])
+            out.append((index, tuple(names), columns))
+        return out
+
+    def effect_reports(self, designs: list, sizes: np.ndarray, noncentrality: np.ndarray) -> list[dict]:
+        """``effect_report`` for many rows at once (the dicts of ``effect_columns``, same numbers)."""
+        out: list = [None] * len(designs)
+        for index, names, columns in self.effect_columns(designs, sizes, noncentrality):
+            for row, values in zip(index.tolist(), zip(*(c.tolist() for c in columns), strict=True), strict=True):
+                out[row] = dict(zip(names, values, strict=True))
         return out
 
     def warnings_rows(self, designs: list, sizes: np.ndarray) -> list[list[str]]:
