@@ -822,23 +822,26 @@ def run_batch(body: dict, *, max_items: int) -> str:
         raise Problem(422, "invalid-request", "Request is not valid",
                       f"{len({k.split('.')[1] for k in envelope})} item(s) have an invalid envelope: "
                       f"{', '.join(list(envelope)[:5])}", errors=envelope)
-    ids = [raw["id"] for raw in raw_items]
-    bodies = [raw["request"] for raw in raw_items]
     answered: list = [None] * len(raw_items)
     for operation, index in by_operation.items():
-        for i, item in zip(index, answer_many(operation, [bodies[i] for i in index], text=True), strict=True):
+        got = answer_many(operation, [raw_items[i]["request"] for i in index], text=True)
+        for i, item in zip(index, got, strict=True):
             answered[i] = item
     encode, string = ANSWER_WRITER.encode, ANSWER_WRITER.string
+    ids = list(map(string, [raw["id"] for raw in raw_items]))
     out = []
     failed = 0
+    adapter = fixed = None
     for item_id, item in zip(ids, answered, strict=True):
         if item.error is None:
-            before, after = _fixed_parts(item.adapter).text(ANSWER_WRITER)
-            head = _head_text(item, ANSWER_WRITER)
-            out.append(f'{{"id":{string(item_id)},"status":200,"result":{head}{before}{item.digest}{after}}}')
+            if item.adapter is not adapter:  # runs of items of one design type are the rule
+                adapter = item.adapter
+                fixed = _fixed_parts(adapter).text(ANSWER_WRITER)
+            head = item.text if item.text is not None else _head_text(item, ANSWER_WRITER)
+            out.append(f'{{"id":{item_id},"status":200,"result":{head}{fixed[0]}{item.digest}{fixed[1]}}}')
         else:
             problem = problem_body(item.error)
-            out.append(encode({"id": item_id, "status": problem["status"], "problem": problem}))
+            out.append('{"id":' + item_id + "," + encode({"status": problem["status"], "problem": problem})[1:])
             failed += 1
     summary = encode({"succeeded": len(out) - failed, "failed": failed})
     return f'{{"items":[{",".join(out)}],"summary":{summary}}}'
