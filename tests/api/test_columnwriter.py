@@ -80,3 +80,11 @@ def test_a_number_that_is_not_finite_is_refused():
     sheet = Sheet()
     with pytest.raises(ValueError):
         sheet.fill(Template(("p",)), (sheet.floats(np.array([0.5, np.nan])),))
+
+
+def test_repeated_floats_are_written_once_and_copied_exactly():
+    """A column of few distinct values (0.0 and -0.0 among them) gives the encoder's text of each."""
+    values = np.random.default_rng(8).choice([0.05, 0.0, -0.0, 1e-12, 3.0, 2.5e300], 5000)
+    sheet = Sheet()
+    texts = sheet.fill(Template(("v",)), (sheet.floats(values),))
+    assert texts == [ANSWER_WRITER.encode({"v": v}) for v in values.tolist()]
