@@ -388,26 +388,34 @@ class Rows:
         signature = stack_signature(self.designs[0])
         if signature is None:
             return None, ()
-        checked = {id(self.designs[0])}
-        for d in self.designs[1:]:
-            if id(d) not in checked:  # designs repeat when items share one
-                if stack_signature(d) != signature:
+        # Designs repeat when items share one: each distinct design is read once, and its
+        # values copied to its rows (``inverse``), which gives the same arrays.
+        where: dict[int, int] = {}
+        distinct = []
+        inverse = []
+        for d in self.designs:
+            j = where.get(id(d))
+            if j is None:
+                if distinct and stack_signature(d) != signature:
                     return None, ()
-                checked.add(id(d))
+                j = where[id(d)] = len(distinct)
+                distinct.append(d)
+            inverse.append(j)
+        spread = None if len(distinct) == self.count else np.array(inverse, dtype=np.intp)
         first = self.designs[0]
         obj = object.__new__(self.cls)
         names = []
         for part in signature:
             name, kind = part[0], part[1]
             if kind == "array":
-                value = np.stack([getattr(d, name) for d in self.designs])
-                names.append(name)
+                value = np.stack([getattr(d, name) for d in distinct])
             elif kind == "float":
-                value = np.array([getattr(d, name) for d in self.designs], dtype=float)
-                names.append(name)
+                value = np.array([getattr(d, name) for d in distinct], dtype=float)
             else:
-                value = getattr(first, name)
-            object.__setattr__(obj, name, value)
+                object.__setattr__(obj, name, getattr(first, name))
+                continue
+            names.append(name)
+            object.__setattr__(obj, name, value if spread is None else value[spread])
         return obj, tuple(names)
 
     def take(self, index) -> Rows:
