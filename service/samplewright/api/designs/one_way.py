@@ -265,25 +265,30 @@ class OneWayAnovaAdapter:
         f = np.sqrt(noncentrality / sizes.sum(axis=1).astype(float))
         eta = eta_squared_from_f(f)
         kinds: dict[int, tuple[int, float, float]] = {}  # id(design) → (shape, sd, range of means)
-        rows = []
-        for design in designs:
+        shapes: dict[int, list[int]] = {}
+        sd, spread = [], []
+        for i, design in enumerate(designs):
             kind = kinds.get(id(design))
             if kind is None:
-                shape = (design.sd is not None) + 2 * (design.means is not None)
-                kind = kinds[id(design)] = (shape, 0.0 if design.sd is None else design.sd,
-                                            float(np.ptp(design.means)) if design.means is not None else 0.0)
-            rows.append(kind)
-        shape, sd, spread = (np.array(column) for column in zip(*rows, strict=True)) if rows else ((),) * 3
+                means = design.means
+                # max − min is np.ptp's own definition (the same float)
+                kind = kinds[id(design)] = ((design.sd is not None) + 2 * (means is not None),
+                                            0.0 if design.sd is None else design.sd,
+                                            0.0 if means is None else float(means.max() - means.min()))
+            shapes.setdefault(kind[0], []).append(i)
+            sd.append(kind[1])
+            spread.append(kind[2])
         out = []
-        for code in np.unique(shape).tolist():
-            index = np.flatnonzero(shape == code)
-            names, columns = ["cohens_f", "eta_squared"], [f[index], eta[index]]
+        for code, rows in sorted(shapes.items()):
+            index = np.arange(len(designs)) if len(shapes) == 1 else np.array(rows)
+            pick = (lambda column: column) if len(shapes) == 1 else (lambda column: column[index])
+            names, columns = ["cohens_f", "eta_squared"], [pick(f), pick(eta)]
             if code & 1:  # with the SD: the SD of the means, f·σ (the same product as effect_report's)
                 names.append("sd_of_means")
-                columns.append(f[index] * sd[index])
+                columns.append(pick(f * np.array(sd, dtype=float)))
             if code & 2:
                 names.append("range_of_means")
-                columns.append(spread[index])
+                columns.append(pick(np.array(spread, dtype=float)))
             out.append((index, tuple(names), columns))
         return out
 
