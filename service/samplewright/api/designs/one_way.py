@@ -293,7 +293,20 @@ class OneWayAnovaAdapter:
         return out
 
     def effect_reports(self, designs: list, sizes: np.ndarray, noncentrality: np.ndarray) -> list[dict]:
-        """``effect_report`` for many rows at once (the dicts of ``effect_columns``, same numbers)."""
+        """``effect_report`` for many rows at once (the dicts of ``effect_columns``, same numbers).
+
+        One row (a single request) in Python floats: the same IEEE operations on the same
+        values (sqrt is correctly rounded in both), without the arrays' set-up.
+        """
+        if len(designs) == 1:
+            design = designs[0]
+            f = math.sqrt(float(noncentrality[0]) / float(sum(sizes[0].tolist())))
+            report = {"cohens_f": f, "eta_squared": float(eta_squared_from_f(f))}
+            if design.sd is not None:
+                report["sd_of_means"] = f * design.sd
+            if design.means is not None:
+                report["range_of_means"] = float(design.means.max() - design.means.min())
+            return [report]
         out: list = [None] * len(designs)
         for index, names, columns in self.effect_columns(designs, sizes, noncentrality):
             for row, values in zip(index.tolist(), zip(*(c.tolist() for c in columns), strict=True), strict=True):
@@ -301,11 +314,16 @@ class OneWayAnovaAdapter:
         return out
 
     def warnings_rows(self, designs: list, sizes: np.ndarray) -> list[list[str]]:
-        """``warnings`` for many rows at once (the tests on sizes in one array pass)."""
-        smallest = sizes.min(axis=1)
-        unequal = (sizes != smallest[:, None]).any(axis=1)
+        """``warnings`` for many rows at once (the tests on sizes in one array pass; one row in Python)."""
+        if len(designs) == 1:
+            row = sizes[0].tolist()
+            least = min(row)
+            smallest, unequal = [least], [any(size != least for size in row)]
+        else:
+            least_of = sizes.min(axis=1)
+            smallest, unequal = least_of.tolist(), (sizes != least_of[:, None]).any(axis=1).tolist()
         out = []
-        for design, least, uneven in zip(designs, smallest.tolist(), unequal.tolist(), strict=True):
+        for design, least, uneven in zip(designs, smallest, unequal, strict=True):
             found = []
             if least < 5:
                 found.append(_FEW_UNITS.format(least))
