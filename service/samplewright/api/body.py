@@ -16,6 +16,7 @@ from collections.abc import Callable
 from typing import Any
 
 from flask import request
+from werkzeug.wsgi import get_content_length
 
 from .fields import TinyNumber
 from .problems import Problem
@@ -135,6 +136,15 @@ def parse_json_text(text: str) -> Any:
     return data
 
 
+def _input_stream(environ: dict):
+    """``request.stream``: when the server terminates the input itself (gunicorn does) and no
+    MAX_CONTENT_LENGTH is set, werkzeug hands out the server's own stream, taken here
+    directly; otherwise werkzeug's wrapped stream."""
+    if "wsgi.input_terminated" in environ and request.max_content_length is None:
+        return environ["wsgi.input"]
+    return request.stream
+
+
 def read_json_object(limit: int, parse: Callable[[bytes, str], Any] | None = None) -> dict[str, Any]:
     """The request body as a JSON object, or a Problem (415, 413, 400 or 422).
 
@@ -142,16 +152,18 @@ def read_json_object(limit: int, parse: Callable[[bytes, str], Any] | None = Non
     (the columnar route); it must raise ValueError (or JSONDecodeError) as
     ``parse_json_text`` does, so every route gives the same problems.
     """
-    mimetype = request.mimetype
+    environ = request.environ
+    # The usual header exactly: its media type is itself (werkzeug's parse gives the same).
+    mimetype = "application/json" if environ.get("CONTENT_TYPE") == "application/json" else request.mimetype
     if mimetype != "application/json" and not (mimetype.startswith("application/") and mimetype.endswith("+json")):
         raise Problem(415, None, "Unsupported Media Type",
                       f"send the body as application/json (got {mimetype or 'no Content-Type'})",
                       headers={"Accept-Post": "application/json"})
-    length = request.content_length
+    length = get_content_length(environ)  # what request.content_length returns, without the property
     if length is not None and length > limit:
         raise Problem(413, "too-large", "Request body too large",
                       f"the body has {length} bytes; this route accepts at most {limit}")
-    raw = request.stream.read(limit + 1)
+    raw = _input_stream(environ).read(limit + 1)
     if len(raw) > limit:
         raise Problem(413, "too-large", "Request body too large",
                       f"the body exceeds the limit of {limit} bytes for this route")
