@@ -14,6 +14,7 @@ from __future__ import annotations
 from collections.abc import Callable
 
 import numpy as np
+from scipy.special import ndtri
 
 #: Ceiling of the bracket for the noncentrality solve. No supported design needs more
 #: (the largest df2 with power 0.9999 at α = 1e-12 needs λ of a few hundred); beyond it
@@ -157,9 +158,14 @@ def noncentrality_for_power(
     each time (``step`` defaults to ``start``, i.e. plain doubling), ``lo`` being the
     largest probe known to fall short (0 at first), until the power reaches the target
     (at most log2(MAX_NONCENTRALITY) steps). A ``start`` just below the root with a
-    small ``step`` brackets it tightly in two probes. The root is then found by the
-    Illinois variant of regula falsi (Dowell & Jarratt, BIT 11, 1971), which keeps a
-    bracket and converges superlinearly, stopping at a relative width of ``rtol``.
+    small ``step`` brackets it tightly in two probes. The root is then found by regula
+    falsi with the Anderson–Björck modification (Anderson & Björck, BIT 13, 1973; it
+    keeps a bracket and converges superlinearly), stopping at a relative width of
+    ``rtol``. The interpolation is done on z = Φ⁻¹(power) against √λ, along which the
+    power of a noncentral test is close to a straight line (power ≈ Φ(√λ − c) for a
+    normal approximation), so each step lands near the root; which end of the bracket a
+    probe replaces is decided on the power itself, so the upper end always reaches the
+    target.
 
     Returns ``(lam, found)``; ``found`` is False where even MAX_NONCENTRALITY falls short.
     """
@@ -168,43 +174,62 @@ def noncentrality_for_power(
     grow = hi.copy() if step is None else np.maximum(np.asarray(step, dtype=float), 1e-6)
     lo = np.zeros_like(hi)
     open_ = np.ones(hi.shape, dtype=bool)
-    f_hi = np.empty_like(hi)
+    p_hi = np.full_like(hi, np.nan)
+    p_lo = np.full_like(hi, np.nan)  # the power at lo, once lo is a probe (at 0 it is asked below)
     for _ in range(int(np.ceil(np.log2(MAX_NONCENTRALITY / 1e-6))) + 2):
-        value = power_of(hi, open_) - target
-        f_hi = np.where(open_, value, f_hi)
-        reached = open_ & (value >= 0)
-        short = open_ & ~reached
+        value = power_of(hi, open_)
+        p_hi = np.where(open_, value, p_hi)
+        short = open_ & ~(value >= target)
         lo = np.where(short, hi, lo)
+        p_lo = np.where(short, value, p_lo)
         open_ = short & (hi < MAX_NONCENTRALITY)
         hi = np.where(open_, np.minimum(lo + grow, MAX_NONCENTRALITY), hi)
         grow = grow * 2
         if not open_.any():
             break
-    found = f_hi >= 0
-    f_lo = power_of(lo, found) - target
-    side = np.zeros(hi.shape, dtype=np.int8)  # which end moved last (Illinois halving)
+    found = p_hi >= target
+    at_zero = found & (lo == 0)
+    if at_zero.any():
+        p_lo = np.where(at_zero, power_of(lo, at_zero), p_lo)
+    z_target = ndtri(target)
+    with np.errstate(all="ignore"):
+        z_hi, z_lo = ndtri(p_hi) - z_target, ndtri(p_lo) - z_target
+    side = np.zeros(hi.shape, dtype=np.int8)  # which end moved last (for the modification)
     active = found & (hi - lo > rtol * hi)
     for _ in range(max_iterations):
         if not active.any():
             break
-        denom = f_hi - f_lo
         with np.errstate(all="ignore"):
-            x = hi - f_hi * (hi - lo) / denom
-        mid = 0.5 * (lo + hi)
-        bad_step = ~np.isfinite(x) | (x <= lo) | (x >= hi)
-        x = np.where(bad_step, mid, x)
-        fx = power_of(x, active) - target
-        up = active & (fx >= 0)
-        down = active & (fx < 0)
+            r_lo, r_hi = np.sqrt(lo), np.sqrt(hi)
+            r = r_hi - z_hi * (r_hi - r_lo) / (z_hi - z_lo)
+            x = r * r
+        # Bisect where the interpolation is unusable: not finite, or an end's z is infinite
+        # (power 0 or 1 there), when it only ever returns that end
+        usable = np.isfinite(x) & np.isfinite(z_lo) & np.isfinite(z_hi)
+        x = np.where(usable, x, 0.5 * (lo + hi))
+        # At least a quarter of the tolerance inside either end: a step that close to an end
+        # (the interpolation's rounding near the root) then closes the bracket at once if
+        # the root is on the near side, instead of creeping towards it.
+        margin = 0.25 * rtol * hi
+        x = np.minimum(np.maximum(x, lo + margin), hi - margin)
+        px = power_of(x, active)
+        with np.errstate(all="ignore"):
+            zx = ndtri(px) - z_target
+            # Anderson–Björck: when the same end survives twice, scale its z by
+            # m = 1 − z(x)/z(replaced end), or ½ when that is not positive (or not finite).
+            m_up, m_down = 1.0 - zx / z_hi, 1.0 - zx / z_lo
+        m_up = np.where(m_up > 0, m_up, 0.5)
+        m_down = np.where(m_down > 0, m_down, 0.5)
+        up = active & (px >= target)
+        down = active & ~(px >= target)
         hi = np.where(up, x, hi)
-        f_hi = np.where(up, fx, f_hi)
+        z_hi = np.where(up, zx, z_hi)
         lo = np.where(down, x, lo)
-        f_lo = np.where(down, fx, f_lo)
-        # Illinois: when the same end survives twice, halve its function value.
-        f_lo = np.where(up & (side == 1), 0.5 * f_lo, f_lo)
-        f_hi = np.where(down & (side == -1), 0.5 * f_hi, f_hi)
+        z_lo = np.where(down, zx, z_lo)
+        z_lo = np.where(up & (side == 1), m_up * z_lo, z_lo)
+        z_hi = np.where(down & (side == -1), m_down * z_hi, z_hi)
         side = np.where(up, 1, np.where(down, -1, side)).astype(np.int8)
-        active = active & (hi - lo > rtol * hi) & (fx != 0)
+        active = active & (hi - lo > rtol * hi) & (px != target)
     # hi always has power ≥ target; the bracket is narrower than rtol·hi.
     lam = np.where(found, hi, MAX_NONCENTRALITY)
     return lam, found

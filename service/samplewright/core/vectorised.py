@@ -46,6 +46,11 @@ _STACKABLE: set[type] = set()
 _EVALUATION_FIELDS = ("power", "df1", "df2", "noncentrality", "critical_value")
 
 
+#: class → its field names if it is stackable, else None (emptied when a class registers).
+_SIGNATURE_FIELDS: dict[type, tuple[str, ...] | None] = {}
+_UNKNOWN = object()
+
+
 def stackable(cls: type) -> type:
     """Register a dataclass design whose test_at and evaluate broadcast over stacked parameters.
 
@@ -54,6 +59,7 @@ def stackable(cls: type) -> type:
     new first axis) evaluates row i of a sizes array exactly as d_i would.
     """
     _STACKABLE.add(cls)
+    _SIGNATURE_FIELDS.clear()
     return cls
 
 
@@ -78,17 +84,20 @@ def stack_signature(design) -> tuple | None:
     of the signature; float values and array contents are what the stack carries per row.
     """
     cls = type(design)
-    if not _is_stackable(cls):
+    names = _SIGNATURE_FIELDS.get(cls, _UNKNOWN)
+    if names is _UNKNOWN:  # worked out once per class (a batch asks for every design)
+        names = _SIGNATURE_FIELDS[cls] = _field_names(cls) if _is_stackable(cls) else None
+    if names is None:
         return None
     parts = []
-    for name in _field_names(cls):
+    for name in names:
         value = getattr(design, name)
         if value is None:
             parts.append((name, None))
+        elif type(value) is float or isinstance(value, float):
+            parts.append((name, "float"))
         elif isinstance(value, np.ndarray):
             parts.append((name, "array", value.shape, value.dtype.kind))
-        elif isinstance(value, float):
-            parts.append((name, "float"))
         elif isinstance(value, _PLAIN):
             parts.append((name, "value", value))
         else:

@@ -280,16 +280,16 @@ class OneWayAnovaAdapter:
             spread.append(kind[2])
         out = []
         for code, rows in sorted(shapes.items()):
-            index = np.arange(len(designs)) if len(shapes) == 1 else np.array(rows)
-            pick = (lambda column: column) if len(shapes) == 1 else (lambda column: column[index])
-            names, columns = ["cohens_f", "eta_squared"], [pick(f), pick(eta)]
+            whole = len(shapes) == 1  # every row: the columns as they are, no indexing
+            index = np.arange(len(designs)) if whole else np.array(rows)
+            names, columns = ["cohens_f", "eta_squared"], [f, eta]
             if code & 1:  # with the SD: the SD of the means, f·σ (the same product as effect_report's)
                 names.append("sd_of_means")
-                columns.append(pick(f * np.array(sd, dtype=float)))
+                columns.append(f * np.array(sd, dtype=float))
             if code & 2:
                 names.append("range_of_means")
-                columns.append(pick(np.array(spread, dtype=float)))
-            out.append((index, tuple(names), columns))
+                columns.append(np.array(spread, dtype=float))
+            out.append((index, tuple(names), columns if whole else [column[index] for column in columns]))
         return out
 
     def effect_reports(self, designs: list, sizes: np.ndarray, noncentrality: np.ndarray) -> list[dict]:
