@@ -466,10 +466,14 @@ def detectable_rows(rows: Rows, *, sizes: np.ndarray, alpha, target_power) -> tu
         start = np.maximum(1.0, np.asarray(ev.df1, dtype=float))
         step = None
         if getattr(part, "_default_evaluate", False):
-            # λ∞ sits just below the root (finite error df need more λ); the gap shrinks
-            # like 1/df2, so a first step of a few λ∞/df2 usually brackets it at once.
-            start = _chi_square_noncentrality(ev.df1, part_alpha, target[index], start)
-            step = start * 4.0 / np.maximum(np.asarray(ev.df2, dtype=float), 1.0)
+            # λ∞ sits below the root (finite error df need more λ), by a gap that shrinks
+            # like 1/df2: (λ/λ∞ − 1)·df2 lay between 2 and 17 for k = 2..10 groups of 4 to
+            # 200, power 0.8 to 0.95 and α 0.001 to 0.05 (measured). So the first probe is
+            # λ∞(1 + 1/df2), still below, and a step of 6λ∞/df2 brackets most roots at once.
+            # (Only speed depends on this: a first probe above the root is bracketed from 0.)
+            lam_inf = _chi_square_noncentrality(ev.df1, part_alpha, target[index], start)
+            per_df = lam_inf / np.maximum(np.asarray(ev.df2, dtype=float), 1.0)
+            start, step = lam_inf + per_df, 6.0 * per_df
         found_lam, found = noncentrality_for_power(power_of, target=target[index], start=start, step=step)
         for j in np.flatnonzero(~found).tolist():
             i = int(index[j])

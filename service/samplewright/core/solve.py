@@ -194,42 +194,51 @@ def noncentrality_for_power(
     z_target = ndtri(target)
     with np.errstate(all="ignore"):
         z_hi, z_lo = ndtri(p_hi) - z_target, ndtri(p_lo) - z_target
-    side = np.zeros(hi.shape, dtype=np.int8)  # which end moved last (for the modification)
+    # Which end each problem's last probe replaced (for the modification below); a problem
+    # leaves ``active`` for good, so only the active entries' flags matter.
+    was_up = np.zeros(hi.shape, dtype=bool)
+    was_down = was_up
     active = found & (hi - lo > rtol * hi)
+    margin_of = 0.25 * rtol
     for _ in range(max_iterations):
         if not active.any():
             break
         with np.errstate(all="ignore"):
             r_lo, r_hi = np.sqrt(lo), np.sqrt(hi)
-            r = r_hi - z_hi * (r_hi - r_lo) / (z_hi - z_lo)
-            x = r * r
-        # Bisect where the interpolation is unusable: not finite, or an end's z is infinite
-        # (power 0 or 1 there), when it only ever returns that end
-        usable = np.isfinite(x) & np.isfinite(z_lo) & np.isfinite(z_hi)
-        x = np.where(usable, x, 0.5 * (lo + hi))
+            x = r_hi - z_hi * (r_hi - r_lo) / (z_hi - z_lo)
+            x *= x
+            # Bisect where the interpolation is unusable: x not finite, or an end's z
+            # infinite (power 0 or 1 there), when it only ever returns that end; the
+            # product is finite exactly when all three are.
+            unusable = ~np.isfinite(x * (z_lo - z_hi))
+        np.copyto(x, 0.5 * (lo + hi), where=unusable)
         # At least a quarter of the tolerance inside either end: a step that close to an end
         # (the interpolation's rounding near the root) then closes the bracket at once if
         # the root is on the near side, instead of creeping towards it.
-        margin = 0.25 * rtol * hi
-        x = np.minimum(np.maximum(x, lo + margin), hi - margin)
+        margin = margin_of * hi
+        np.maximum(x, lo + margin, out=x)
+        np.minimum(x, hi - margin, out=x)
         px = power_of(x, active)
+        reached = px >= target
+        up = active & reached
+        down = active & ~reached
         with np.errstate(all="ignore"):
-            zx = ndtri(px) - z_target
+            zx = ndtri(px)
+            zx -= z_target
             # Anderson–Björck: when the same end survives twice, scale its z by
             # m = 1 − z(x)/z(replaced end), or ½ when that is not positive (or not finite).
-            m_up, m_down = 1.0 - zx / z_hi, 1.0 - zx / z_lo
-        m_up = np.where(m_up > 0, m_up, 0.5)
-        m_down = np.where(m_down > 0, m_down, 0.5)
-        up = active & (px >= target)
-        down = active & ~(px >= target)
-        hi = np.where(up, x, hi)
-        z_hi = np.where(up, zx, z_hi)
-        lo = np.where(down, x, lo)
-        z_lo = np.where(down, zx, z_lo)
-        z_lo = np.where(up & (side == 1), m_up * z_lo, z_lo)
-        z_hi = np.where(down & (side == -1), m_down * z_hi, z_hi)
-        side = np.where(up, 1, np.where(down, -1, side)).astype(np.int8)
-        active = active & (hi - lo > rtol * hi) & (px != target)
+            for keep, kept_z, gone_z, moved_before in ((up, z_lo, z_hi, was_up), (down, z_hi, z_lo, was_down)):
+                again = keep & moved_before
+                if again.any():
+                    m = 1.0 - zx[again] / gone_z[again]
+                    kept_z[again] *= np.where(m > 0, m, 0.5)
+        np.copyto(hi, x, where=up)
+        np.copyto(z_hi, zx, where=up)
+        np.copyto(lo, x, where=down)
+        np.copyto(z_lo, zx, where=down)
+        was_up, was_down = up, down
+        active &= hi - lo > rtol * hi
+        active &= px != target
     # hi always has power ≥ target; the bracket is narrower than rtol·hi.
     lam = np.where(found, hi, MAX_NONCENTRALITY)
     return lam, found
