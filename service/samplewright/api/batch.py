@@ -33,7 +33,7 @@ import gc
 import json
 import logging
 from collections.abc import Iterator
-from contextlib import contextmanager
+from contextlib import contextmanager, nullcontext
 from typing import Any
 
 import numpy as np
@@ -657,7 +657,8 @@ def answer_many(operation: str, bodies: list, *, isolate: bool = True, text: boo
     schema, how, compute, share_questions = _OPERATIONS[operation]
     items = [_Item() for _ in bodies]
     share_questions = share_questions and len(items) > 1
-    with sharing():
+    # One body has nothing to share its validated design with: no keys are written then.
+    with sharing() if len(items) > 1 else nullcontext():
         _validate(items, bodies, schema, shareable=share_questions)
     work, repeats = _distinct(items) if share_questions else (items, [])
     _make(work, how)
