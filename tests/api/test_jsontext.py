@@ -11,6 +11,7 @@ import pytest
 from samplewright.api.jsontext import ANSWER_WRITER, Writer
 
 UTF8_WRITER = Writer(ensure_ascii=False)
+SORTED_WRITER = Writer(ensure_ascii=False, sort_keys=True)  # as provenance's canonical encoder
 
 
 def _value(rng: random.Random, depth: int = 0):
@@ -27,10 +28,10 @@ def _value(rng: random.Random, depth: int = 0):
         return rng.choice([0, 1, 2, 3])
     if kind == 6:
         return [_value(rng, depth + 1) for _ in range(rng.randint(0, 4))]
-    return {f"k{i}": _value(rng, depth + 1) for i in range(rng.randint(0, 4))}
+    return {f"k{i}": _value(rng, depth + 1) for i in rng.sample(range(4), rng.randint(0, 4))}  # keys out of order
 
 
-@pytest.mark.parametrize("writer", [UTF8_WRITER, ANSWER_WRITER], ids=["utf8", "ascii"])
+@pytest.mark.parametrize("writer", [UTF8_WRITER, ANSWER_WRITER, SORTED_WRITER], ids=["utf8", "ascii", "sorted"])
 def test_writer_text_equals_the_standard_encoder(writer):
     """Seeded random nested values: Writer.encode and Writer.string give json's own text byte for byte.
 

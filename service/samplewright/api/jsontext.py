@@ -18,15 +18,17 @@ from json import encoder as _json_encoder
 from typing import Any
 
 #: A value that exercises every kind of member an answer holds.
-_PROBE = {"a": [1, -2, 2.5, 1e-300, 0.1, 5.0], "b": "é σ \x00 \" \\ ☃", "c": None, "d": True,
+_PROBE = {"z": [], "a": [1, -2, 2.5, 1e-300, 0.1, 5.0], "b": "é σ \x00 \" \\ ☃", "c": None, "d": True,
           "e": {"f": [], "g": {}, "h": False}}
 
 
 class Writer:
     """JSON text as the standard compact encoder writes it (``encode``), and strings alone (``string``)."""
 
-    def __init__(self, *, ensure_ascii: bool) -> None:
-        self.encoder = json.JSONEncoder(allow_nan=False, separators=(",", ":"), ensure_ascii=ensure_ascii)
+    def __init__(self, *, ensure_ascii: bool, sort_keys: bool = False,
+                 default: Callable[[Any], Any] | None = None) -> None:
+        self.encoder = json.JSONEncoder(allow_nan=False, separators=(",", ":"), ensure_ascii=ensure_ascii,
+                                        sort_keys=sort_keys, default=default)
         self.string: Callable[[str], str] = (
             _json_encoder.encode_basestring_ascii if ensure_ascii else _json_encoder.encode_basestring
         )
@@ -37,7 +39,8 @@ class Writer:
         if make is None:
             return None
         try:
-            chunks = make(None, self.encoder.default, self.string, None, ":", ",", False, False, False)
+            chunks = make(None, self.encoder.default, self.string, None, ":", ",", self.encoder.sort_keys, False,
+                          False)
         except TypeError:  # a different signature: keep the standard path
             return None
         join = "".join
