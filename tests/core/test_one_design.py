@@ -501,3 +501,23 @@ def test_smallest_unit_of_one_equals_the_generic_and_the_row_form():
                 assert alone == int(together[i])
             units.add(alone)
     assert {1, 2} <= units
+
+
+def test_chi_square_start_of_repeated_rows_is_each_rows_own():
+    """λ∞ of rows repeating (df1, α, target), solved once per distinct triple, equals each row's
+    own scipy.special.chndtrinc value bit for bit (an independent call per row), NaN targets
+    included (they get the fallback). Source: common practice, no source."""
+    from scipy import special
+
+    from samplewright.core.planning import _chi_square_noncentrality
+
+    rng = np.random.default_rng(12)
+    df1 = rng.choice([1.0, 2.0, 5.0], 400)
+    alpha = rng.choice([0.05, 0.01, 0.001], 400)
+    target = rng.choice([0.8, 0.9, 0.95, np.nan], 400)
+    fallback = np.full(400, -1.0)
+    got = _chi_square_noncentrality(df1, alpha, target, fallback)
+    for i in range(400):
+        lam = special.chndtrinc(special.chdtri(df1[i], alpha[i]), df1[i], 1.0 - target[i])
+        expected = lam if np.isfinite(lam) and lam > 0 else -1.0
+        assert got[i] == expected or (np.isnan(got[i]) and np.isnan(expected)), i
