@@ -7,7 +7,9 @@ that operation, so a result in a batch *is* the single endpoint's result for tha
 How a list is answered:
 
 1. each body is validated by its request schema (``fastload``: marshmallow's own fields
-   and rules, without the per-call plumbing);
+   and rules, without the per-call plumbing); for sample-size and detectable-effect
+   questions identical bodies share one validated dict, and such repeats are answered
+   once (``_distinct``; each item still gets the whole answer);
 2. each distinct design is built once by its adapter (identical design objects in a list
    are built once and shared; adapters' ``build`` is a pure function of its arguments);
 3. items are grouped by design class, number of groups and stack signature
@@ -15,7 +17,9 @@ How a list is answered:
    engine (``core.planning.*_rows``): one vectorised power evaluation, one lockstep
    integer search for all the sample sizes, one lockstep noncentrality solve;
 4. each item's report (effect, warnings, extras) comes from its adapter, as for a single
-   request, and the response gets its provenance.
+   request, and the response gets its provenance. For the batch route (``text=True``) a
+   power group whose adapter reports rows at once writes its answers as JSON text a column
+   at a time (``columnwriter``), the same text the encoder writes for the dicts.
 
 An item that cannot be answered gets its own problem (the one the single endpoint would
 return); the other items are unaffected. If a group fails in an unexpected way, its items
