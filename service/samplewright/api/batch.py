@@ -842,7 +842,7 @@ def run_batch(body: dict, *, max_items: int) -> str:
             if item.adapter is not adapter:  # runs of items of one design type are the rule
                 adapter = item.adapter
                 fixed = _fixed_parts(adapter).text(ANSWER_WRITER)
-            head = item.text if item.text is not None else _head_text(item, ANSWER_WRITER)
+            head = _head_text(item, ANSWER_WRITER)
             out.append(f'{{"id":{item_id},"status":200,"result":{head}{fixed[0]}{item.digest}{fixed[1]}}}')
         else:
             problem = problem_body(item.error)

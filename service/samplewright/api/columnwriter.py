@@ -25,18 +25,6 @@ _encode = ANSWER_WRITER.encode
 _string = ANSWER_WRITER.string
 
 
-def _distinct_texts(values: np.ndarray) -> list[str]:
-    """``number_texts(values)``, each distinct value (by bit pattern) written once when many
-    repeat, as a group's α, degrees of freedom and critical values do (a third distinct,
-    typically: the sort costs less than the writing it saves)."""
-    if values.size < 256:
-        return number_texts(values)
-    distinct, inverse = np.unique(values.view(np.int64), return_inverse=True)
-    if distinct.size * 4 > values.size * 3:
-        return number_texts(values)
-    return np.array(number_texts(distinct.view(np.float64)), dtype=object)[inverse.reshape(-1)].tolist()
-
-
 class Template:
     """The text of an object with the given members, its values to be filled in.
 
@@ -133,12 +121,10 @@ class Sheet:
         shapes = []
         for keys, index in groups.items():
             rows = values if len(index) == count else [values[j] for j in index]
-            if not keys:
-                shapes.append((index, None, ["{}"] * len(rows)))
-            elif not all(type(key) is str for key in keys):  # the encoder converts or refuses such keys
+            if not all(type(key) is str for key in keys):  # the encoder converts or refuses such keys
                 shapes.append((index, None, list(map(self._encode, rows))))
             else:
-                shapes.append((index, Template(keys, string=self._string), [self.values([row[key] for row in rows]) for key in keys]))
+                shapes.append(self._shape(index, keys, [[row[key] for row in rows] for key in keys]))
         return _Dicts(count, shapes)
 
     def shapes(self, count: int, shapes: Sequence[tuple[np.ndarray, tuple[str, ...], Sequence]]):
@@ -148,20 +134,24 @@ class Sheet:
         out = []
         for index, names, columns in shapes:
             seen[index] += 1
-            parts = [self.floats(c) if isinstance(c, np.ndarray) and c.dtype == np.float64 else self.values(list(c))
-                     for c in columns]
-            template = Template(names, string=self._string)
-            out.append((np.asarray(index).tolist(), template if names else None,
-                        parts if names else ["{}"] * len(index)))
+            out.append(self._shape(np.asarray(index).tolist(), names, columns))
         if not (seen == 1).all():
             raise ValueError("shapes must cover every row exactly once")
         return _Dicts(count, out)
+
+    def _shape(self, index: list[int], names: Sequence[str], columns: Sequence) -> tuple:
+        """(rows, template, its columns) of dicts with these members; no members: "{}" each."""
+        if not names:
+            return index, None, ["{}"] * len(index)
+        parts = [self.floats(c) if isinstance(c, np.ndarray) and c.dtype == np.float64 else self.values(list(c))
+                 for c in columns]
+        return index, Template(names, string=self._string), parts
 
     def _write(self) -> tuple[list[str], list[str]]:
         if self._written is None:
             floats, integers = self._pools
             self._written = (
-                _distinct_texts(np.concatenate(floats)) if floats else [],
+                number_texts(np.concatenate(floats)) if floats else [],
                 number_texts(np.concatenate(integers)) if integers else [],
             )
         return self._written

@@ -94,7 +94,7 @@ def stack_signature(design) -> tuple | None:
         value = getattr(design, name)
         if value is None:
             parts.append((name, None))
-        elif type(value) is float or isinstance(value, float):
+        elif isinstance(value, float):
             parts.append((name, "float"))
         elif isinstance(value, np.ndarray):
             parts.append((name, "array", value.shape, value.dtype.kind))
