@@ -251,7 +251,7 @@ def test_one_problem_twin_equals_each_row_of_a_lockstep_search():
 
 
 def test_noncentrality_of_f_tests_converges_in_a_few_lockstep_rounds():
-    """Power of real F tests: every root to rtol with power ≥ target, in at most 12 calls of the lockstep.
+    """Power of real F tests: every root to rtol with power ≥ target, in at most 20 calls of the lockstep.
 
     The interpolation on Φ⁻¹(power) against √λ is nearly linear for noncentral F power, so a
     handful of steps reach 1e-13; the count guards that property (common practice, no source:
@@ -271,7 +271,7 @@ def test_noncentrality_of_f_tests_converges_in_a_few_lockstep_rounds():
     fn = Counting(lambda lam, mask: f_test_power(alpha, df1, df2, lam, critical=crit))
     lam, found = noncentrality_for_power(fn, target=target, start=np.maximum(1.0, df1), step=None)
     assert found.all()
-    assert fn.calls <= 12 + math.ceil(math.log2(MAX_NONCENTRALITY / 1e-6))
+    assert fn.calls <= 20  # 15 measured: about 5 doublings from df1, then the interpolation
     reference = stats.ncf.sf(crit, df1, df2, lam)
     np.testing.assert_allclose(reference, target, rtol=1e-9)
     assert (f_test_power(alpha, df1, df2, lam, critical=crit) >= target).all()
